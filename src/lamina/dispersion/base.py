@@ -1,0 +1,190 @@
+"""The common shape of every dispersion law.
+
+A law is a pure, vectorized function of photon energy (eV) returning complex
+epsilon (module-level functions in each law's module), wrapped by a thin
+`Dispersion` object that holds named parameters (`Param`, with units and
+physical bounds from `ParamSpec`) and evaluates the function.
+
+Parameter names are *local* dotted paths that mirror the law's table in a
+model file, arrays by 1-based index: ``eps_inf``, ``oscillators.2.center_ev``,
+``components.1.material.A``.  The stack prefixes them with the layer name.
+
+Batching: ``epsilon_ev(E, values)`` takes optional overrides, a mapping from
+local name to a float or an array of shape ``(B,)``; with any array the result
+has shape ``(B, W)`` for ``W`` energies, otherwise ``(W,)``.  The optics engine
+and the fitter rely on this to evaluate many parameter sets without a Python
+loop.
+"""
+from __future__ import annotations
+
+from typing import Callable, ClassVar, Mapping
+
+import numpy as np
+
+from ..errors import LaminaInputError
+from ..parameters import Param, ParamSpec, as_param
+from ..units import HC_EV_NM, nk_from_epsilon
+
+#: resolve(raw, where) -> Dispersion: turns a model-file material value (a
+#: library name or an inline law table) into a law; given by the caller so that
+#: laws that contain other materials (effective-medium mixtures) need not know
+#: the material library.
+Resolver = Callable[[object, str], "Dispersion"]
+
+
+class Dispersion:
+    """Base class: named parameters plus a vectorized epsilon(E)."""
+
+    #: the law's name in model files (``law = "..."``)
+    law: ClassVar[str] = ""
+
+    def __init__(self, params: Mapping[str, Param], specs: Mapping[str, ParamSpec], *,
+                 name: str | None = None, source: str = "",
+                 valid_range_nm: tuple[float, float] | None = None):
+        self.params: dict[str, Param] = dict(params)
+        self.specs: dict[str, ParamSpec] = dict(specs)
+        missing = set(self.params) - set(self.specs)
+        if missing:
+            raise ValueError(f"parameters without spec: {sorted(missing)}")
+        for key, prm in self.params.items():
+            self.specs[key].check(prm.value, key)
+        #: library name when the law came from the material library, else None
+        self.name = name
+        #: publication (and database page) the numbers come from
+        self.source = source
+        #: wavelength range (nm) where the law is valid; None = unlimited
+        self.valid_range_nm = valid_range_nm
+
+    # -- to be provided by each law -------------------------------------
+    def _epsilon(self, photon_energy_ev: np.ndarray, p: Mapping[str, object]) -> np.ndarray:
+        """Complex epsilon for parameter values `p` (floats or (B, 1) arrays)."""
+        raise NotImplementedError
+
+    @classmethod
+    def from_toml(cls, table: Mapping, where: str, resolve: Resolver | None = None) -> "Dispersion":
+        """Build the law from its model-file table (``law`` key included)."""
+        raise NotImplementedError
+
+    def to_toml(self) -> dict:
+        """The model-file table of this law (inverse of `from_toml`)."""
+        raise NotImplementedError
+
+    # -- shared machinery -------------------------------------------------
+    def parameters(self) -> dict[str, Param]:
+        """Local parameter names -> Param, in model-file order."""
+        return dict(self.params)
+
+    def param_values(self, values: Mapping[str, object] | None = None) -> tuple[dict, bool]:
+        """Current values merged with overrides; arrays become (B, 1) columns."""
+        p: dict[str, object] = {k: prm.value for k, prm in self.params.items()}
+        batched = False
+        if values:
+            for key, val in values.items():
+                if key not in p:
+                    raise KeyError(f"{type(self).__name__} has no parameter '{key}'")
+                arr = np.asarray(val, dtype=float)
+                if arr.ndim == 0:
+                    p[key] = float(arr)
+                else:
+                    p[key] = arr.reshape(-1, 1)
+                    batched = True
+        return p, batched
+
+    def epsilon_ev(self, photon_energy_ev, values: Mapping[str, object] | None = None) -> np.ndarray:
+        """Complex dielectric function at photon energies (eV); see module doc for batching."""
+        energy = np.asarray(photon_energy_ev, dtype=float)
+        p, batched = self.param_values(values)
+        eps = np.asarray(self._epsilon(energy, p), dtype=complex)
+        if batched:
+            batch = max(np.shape(v)[0] for v in p.values() if np.ndim(v))
+            eps = np.broadcast_to(eps, (batch,) + energy.shape)
+        elif eps.shape != energy.shape:
+            eps = np.broadcast_to(eps, energy.shape)
+        return eps
+
+    def epsilon(self, wavelength_nm, values: Mapping[str, object] | None = None) -> np.ndarray:
+        """Complex dielectric function eps1 + i eps2 at wavelengths in nm."""
+        wavelength_nm = np.asarray(wavelength_nm, dtype=float)
+        self.check_range(wavelength_nm)
+        return self.epsilon_ev(HC_EV_NM / wavelength_nm, values)
+
+    def nk(self, wavelength_nm, values: Mapping[str, object] | None = None) -> np.ndarray:
+        """Complex refractive index N = n + ik (k >= 0) at wavelengths in nm."""
+        return nk_from_epsilon(self.epsilon(wavelength_nm, values))
+
+    def check_range(self, wavelength_nm, where: str | None = None) -> None:
+        """Raise LaminaInputError when a wavelength lies outside the valid range."""
+        if self.valid_range_nm is None:
+            return
+        wl = np.asarray(wavelength_nm, dtype=float)
+        if wl.size == 0:
+            return
+        lo, hi = self.valid_range_nm
+        # a relative slack of 1e-9 forgives round-off at the table ends
+        if wl.min() < lo * (1 - 1e-9) or wl.max() > hi * (1 + 1e-9):
+            label = self.name or self.law
+            raise LaminaInputError(
+                f"wavelengths {wl.min():g}-{wl.max():g} nm reach outside the range of material '{label}'",
+                where or f"material '{label}'",
+                f"wavelengths within {lo:g}-{hi:g} nm",
+            )
+
+    def with_values(self, values: Mapping[str, float]) -> "Dispersion":
+        """A copy with some parameter values replaced (bounds and flags kept)."""
+        new = self.copy()
+        for key, val in values.items():
+            if key not in new.params:
+                raise KeyError(f"{type(self).__name__} has no parameter '{key}'")
+            new.params[key] = new.params[key].with_value(val)
+        return new
+
+    def with_params(self, params: Mapping[str, Param]) -> "Dispersion":
+        """A copy with some Params replaced whole."""
+        new = self.copy()
+        for key, prm in params.items():
+            if key not in new.params:
+                raise KeyError(f"{type(self).__name__} has no parameter '{key}'")
+            new.params[key] = prm
+        return new
+
+    def copy(self) -> "Dispersion":
+        import copy as _copy
+        new = _copy.copy(self)
+        new.params = dict(self.params)
+        return new
+
+    def __repr__(self) -> str:
+        label = f" '{self.name}'" if self.name else ""
+        vals = ", ".join(f"{k}={p.value:g}" for k, p in list(self.params.items())[:6])
+        return f"<{type(self).__name__}{label} {vals}>"
+
+
+# -- helpers for from_toml implementations -------------------------------------
+
+def check_keys(table: Mapping, allowed: set[str], where: str) -> None:
+    """Raise a LaminaInputError naming the first unknown key of a model-file table."""
+    for key in table:
+        if key not in allowed:
+            raise LaminaInputError(f"unknown key '{key}'", f"{where}.{key}",
+                                   "one of " + ", ".join(sorted(allowed)))
+
+
+def require(table: Mapping, key: str, where: str):
+    if key not in table:
+        raise LaminaInputError(f"missing key '{key}'", where, f"a '{key}' entry")
+    return table[key]
+
+
+def read_params(table: Mapping, specs: Mapping[str, ParamSpec], where: str,
+                defaults: Mapping[str, float] | None = None, prefix: str = "") -> dict[str, Param]:
+    """Params for `specs` from a model-file table; a key missing from the table takes its default."""
+    params: dict[str, Param] = {}
+    for key, spec in specs.items():
+        local = key[len(prefix):] if prefix and key.startswith(prefix) else key
+        if local in table:
+            params[key] = as_param(table[local], spec, f"{where}.{local}")
+        elif defaults is not None and local in defaults:
+            params[key] = Param(float(defaults[local]), unit=spec.unit)
+        else:
+            raise LaminaInputError(f"missing parameter '{local}'", where, f"a value for '{local}'")
+    return params

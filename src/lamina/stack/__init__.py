@@ -1,0 +1,4 @@
+"""Layer stacks and model files."""
+from .layers import Layer, OpticalInputs, Stack
+
+__all__ = ["Layer", "Stack", "OpticalInputs"]
