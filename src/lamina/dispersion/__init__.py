@@ -12,6 +12,7 @@ from typing import Mapping
 from ..errors import LaminaInputError
 from .base import Dispersion, Resolver
 from .constant import Constant
+from .tauc_lorentz import TaucLorentz
 
 LAWS: dict[str, type[Dispersion]] = {}
 
@@ -22,6 +23,7 @@ def register(cls: type[Dispersion]) -> type[Dispersion]:
 
 
 register(Constant)
+register(TaucLorentz)
 
 
 def from_toml(table: Mapping, where: str, resolve: Resolver | None = None) -> Dispersion:
