@@ -15,7 +15,7 @@ A_SI = dict(eps_inf=1.15, gap_ev=1.20, oscillators=[{"amplitude_ev": 122.0, "cen
 
 
 def eps2_by_hand(energy, a, e0, c, eg):
-    """Jellison and Modine 1996, Eq. 4, written out for one scalar energy."""
+    """Jellison and Modine 1996 (eps2 of the TL law), written out for one scalar energy."""
     if energy <= eg:
         return 0.0
     return (a * e0 * c * (energy - eg) ** 2) / (((energy ** 2 - e0 ** 2) ** 2 + c ** 2 * energy ** 2) * energy)
@@ -23,7 +23,7 @@ def eps2_by_hand(energy, a, e0, c, eg):
 
 def eps1_by_quadrature(energy, a, e0, c, eg):
     """eps1 - eps_inf = (2/pi) P int_0^inf E' eps2(E') / (E'^2 - E^2) dE' (Kramers-Kronig;
-    e.g. Jellison and Modine 1996, Eq. 3), with scipy's Cauchy-weight quadrature (QUADPACK QAWC)."""
+    e.g. Jellison and Modine 1996), with scipy's Cauchy-weight quadrature (QUADPACK QAWC)."""
     f = lambda x: x * eps2_by_hand(x, a, e0, c, eg) / (x + energy)
     total = 0.0
     top = eg
@@ -40,7 +40,7 @@ def test_registered():
 
 
 def test_eps2_is_zero_at_and_below_the_gap():
-    # Jellison and Modine 1996, Eq. 4: eps2 = 0 for E <= Eg
+    # Jellison and Modine 1996: eps2 = 0 for E <= Eg
     law = TaucLorentz(**A_SI)
     energy = np.array([0.0, 0.3, 1.0, 1.19999, 1.20])
     assert np.all(law.epsilon_ev(energy).imag == 0.0)

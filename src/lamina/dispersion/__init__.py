@@ -13,6 +13,7 @@ from ..errors import LaminaInputError
 from .base import Dispersion, Resolver
 from .constant import Constant
 from .tauc_lorentz import TaucLorentz
+from .gaussian import Gaussian
 
 LAWS: dict[str, type[Dispersion]] = {}
 
@@ -24,6 +25,7 @@ def register(cls: type[Dispersion]) -> type[Dispersion]:
 
 register(Constant)
 register(TaucLorentz)
+register(Gaussian)
 
 
 def from_toml(table: Mapping, where: str, resolve: Resolver | None = None) -> Dispersion:

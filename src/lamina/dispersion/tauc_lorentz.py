@@ -48,7 +48,7 @@ TL_OSCILLATOR_SPECS = {
 # -- pure functions ---------------------------------------------------------------
 
 def tauc_lorentz_eps2(photon_energy_ev, amplitude_ev, center_ev, broadening_ev, gap_ev):
-    """Imaginary part of one Tauc-Lorentz oscillator (Jellison and Modine 1996, Eq. 4).
+    """Imaginary part of one Tauc-Lorentz oscillator (Jellison and Modine 1996).
 
     eps2(E) = A E0 C (E - Eg)^2 / [ ((E^2 - E0^2)^2 + C^2 E^2) E ]   for E > Eg,
     eps2(E) = 0                                                      for E <= Eg.
