@@ -132,6 +132,9 @@ def as_param(raw, spec: ParamSpec | None = None, where: str = "") -> Param:
                                where, "min <= value <= max")
     if spec is not None:
         spec.check(param.value, where)
+        if not param.vary:
+            # a fixed number keeps its (absent) bounds so that it writes back as a plain number
+            return param
         lo, hi = max(param.min, spec.lower), min(param.max, spec.upper)
         if (lo, hi) != (param.min, param.max):
             param = replace(param, min=lo, max=hi)

@@ -208,6 +208,11 @@ class Stack:
             n_media.append(n_of("exit", exit_medium))
         return OpticalInputs(n_media, thickness, coherent)
 
+    def to_toml(self) -> str:
+        """Model-file text of this stack (see lamina.stack.modelfile)."""
+        from .modelfile import stack_to_toml
+        return stack_to_toml(self)
+
     def describe(self) -> str:
         """Human-readable one-line-per-medium summary."""
         def label(m):
