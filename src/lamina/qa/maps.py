@@ -1,0 +1,652 @@
+"""Wafer maps: read a map file, fit every site on dask, summarise against a spec.
+
+Map files
+---------
+CSV (long form): one row per site, angle and wavelength; the columns ``site``,
+``x_mm``, ``y_mm`` (mm, origin at the wafer centre), optional ``wafer``, plus
+the columns of a measurement file (``wavelength_nm``, ``angle_deg``,
+``psi_deg``, ``delta_deg``, ``R``, ``T`` and their ``*_err``), which are
+parsed by the measurement-file reader, site by site.
+
+NetCDF: dims (``site``, ``angle``, ``wavelength``), coordinates ``x_mm``,
+``y_mm`` (and optional ``wafer``) along ``site``, variables as from
+``lamina.read_data``.
+
+Bad file or bad site
+--------------------
+Anything that breaks the structure of the file is bad input (LaminaInputError,
+exit 2): a missing or unreadable file, a missing required column, a row with
+the wrong number of fields, an empty site label, non-numeric or non-finite
+coordinates, a site whose rows disagree on its coordinates or wafer, a site off
+the wafer, or a file in which no site at all can be read.
+
+A problem confined to the measured values of one site (non-numeric or missing
+values, a wavelength/angle grid different from the rest of the map, duplicated
+rows, values out of range) makes only that site *unreadable*: `read_map` keeps
+the site with NaN data and its reason in the ``site_problem`` variable, the fit
+records it as failed, and the rest of the map carries on (exit 3).
+
+Fitting
+-------
+`fit_map` sends the work to a dask.distributed cluster: the reference site of
+each wafer (the usable site nearest the centre) is fitted first with the global
+search; the other sites start from its result and are fitted in chunks (one
+task per chunk, so that task overhead stays small); sites whose reduced
+chi-square is an outlier are fitted again with the global search.  A site that
+cannot be fitted is recorded with its reason and never stops the map.
+"""
+from __future__ import annotations
+
+import contextlib
+import logging
+import math
+import os
+from pathlib import Path
+from typing import Callable, Iterable
+
+import numpy as np
+import xarray as xr
+
+from ..errors import LaminaInputError
+from .wafer import WaferGeometry, map_statistics, reference_site
+
+#: columns that say where a row belongs (everything else goes to the measurement reader)
+SITE_COLUMNS = ("site", "x_mm", "y_mm")
+WAFER_COLUMN = "wafer"
+#: label of the single wafer of a map without a wafer column
+DEFAULT_WAFER = "1"
+
+#: outlier rule for the second global search: reduced chi2 above both
+OUTLIER_FACTOR = 5.0
+OUTLIER_FLOOR = 3.0
+
+#: environment of worker processes: one BLAS/OpenMP thread each (the cluster
+#: supplies the parallelism; nested threads on 2 cores only fight)
+WORKER_ENV = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
+                                     "NUMEXPR_NUM_THREADS", "VECLIB_MAXIMUM_THREADS")}
+
+
+# ----------------------------------------------------------------------------
+# reading
+# ----------------------------------------------------------------------------
+
+def read_map(path) -> xr.Dataset:
+    """Read a wafer map (CSV or NetCDF) into a Dataset with dims (site, angle, wavelength).
+
+    Coordinates: ``site`` (labels), ``x_mm``, ``y_mm``, ``wafer`` along site.
+    ``site_problem`` (str along site) is "" for a good site and the reason for
+    a site whose data could not be read (its values are NaN).  The attribute
+    ``wafer_column`` is 1 when the file named its wafers.
+    """
+    path = Path(path)
+    if not path.is_file():
+        raise LaminaInputError("file not found", str(path), "an existing map file (.csv or .nc)")
+    suffix = path.suffix.lower()
+    if suffix in (".nc", ".h5", ".netcdf", ".nc4"):
+        dataset = _read_map_netcdf(path)
+    else:
+        dataset = _read_map_csv(path)
+    if not (dataset["site_problem"].values == "").any():
+        first = str(dataset["site_problem"].values[0])
+        raise LaminaInputError(f"no site can be read (first site: {first})", str(path),
+                               "at least one site with valid measurements")
+    dataset.attrs["source_file"] = str(path)
+    return dataset
+
+
+def _site_coordinates(table, name: str, label: str) -> np.ndarray:
+    """Numbers of a coordinate column; a bad cell is a bad file (the site cannot be placed)."""
+    import pandas as pd
+    text = table.extra[name]
+    values = pd.to_numeric(pd.Series(text, dtype=object), errors="coerce").to_numpy(dtype=float)
+    bad = np.flatnonzero(~np.isfinite(values))
+    if bad.size:
+        row = int(bad[0])
+        raise LaminaInputError(f"{name} = {text[row]!r} is not a finite number",
+                               f"{label}:{int(table.lines[row])}: column {table.columns[name] + 1} ({name})",
+                               f"the site's {name} in mm")
+    return values
+
+
+def _group_rows(table, label: str, has_wafer: bool):
+    """Rows grouped by (wafer, site) in order of first appearance: (keys, rows per site, x, y)."""
+    sites = table.extra["site"]
+    empty = np.flatnonzero(sites == "")
+    if empty.size:
+        raise LaminaInputError("empty site label", f"{label}:{int(table.lines[empty[0]])}: column "
+                               f"{table.columns['site'] + 1} (site)", "a site label on every row")
+    wafers = table.extra[WAFER_COLUMN] if has_wafer else np.full(sites.shape, DEFAULT_WAFER, dtype=object)
+    if has_wafer and (wafers == "").any():
+        row = int(np.flatnonzero(wafers == "")[0])
+        raise LaminaInputError("empty wafer label", f"{label}:{int(table.lines[row])}: column "
+                               f"{table.columns[WAFER_COLUMN] + 1} (wafer)", "a wafer label on every row")
+    x_mm = _site_coordinates(table, "x_mm", label)
+    y_mm = _site_coordinates(table, "y_mm", label)
+    keys = np.char.add(np.char.add(wafers.astype(str), "\x1f"), sites.astype(str))
+    unique, first, inverse = np.unique(keys, return_index=True, return_inverse=True)
+    order = np.argsort(first)  # file order of first appearance
+    groups = [np.flatnonzero(inverse == k) for k in order]
+    for rows in groups:
+        moved = np.flatnonzero((np.abs(x_mm[rows] - x_mm[rows[0]]) > 1e-6) | (np.abs(y_mm[rows] - y_mm[rows[0]]) > 1e-6))
+        if moved.size:
+            row = int(rows[moved[0]])
+            raise LaminaInputError(
+                f"site '{sites[row]}' is at ({x_mm[row]:g}, {y_mm[row]:g}) mm here but at "
+                f"({x_mm[rows[0]]:g}, {y_mm[rows[0]]:g}) mm on line {int(table.lines[rows[0]])}",
+                f"{label}:{int(table.lines[row])}: columns x_mm, y_mm", "one position per site")
+    firsts = [int(rows[0]) for rows in groups]
+    return ([str(sites[i]) for i in firsts], [str(wafers[i]) for i in firsts], groups,
+            x_mm[firsts], y_mm[firsts])
+
+
+def _site_dataset(table, rows: np.ndarray, label: str, site: str):
+    """One site's rows on its grid, or the reason the site cannot be read."""
+    from ..data.readers import table_to_dataset
+    bad = [int(r) for r in rows if int(r) in table.problems]
+    if bad:
+        return None, f"site '{site}': {table.problems[bad[0]]}"
+    try:
+        return table_to_dataset(table, rows), ""
+    except LaminaInputError as exc:
+        return None, f"site '{site}': {exc}"
+
+
+def _grid_key(data: xr.Dataset) -> tuple:
+    """What must agree between sites: angles, wavelengths, variables and the measured pattern."""
+    pattern = tuple(np.isfinite(data[name].values).tobytes() for name in sorted(data.data_vars))
+    return (data["angle"].values.tobytes(), data["wavelength"].values.tobytes(),
+            tuple(sorted(data.data_vars)), pattern)
+
+
+def _read_map_csv(path: Path) -> xr.Dataset:
+    """CSV map via the measurement reader's steps (read_csv_text, parse_table, table_to_dataset)."""
+    from ..data.readers import parse_table, read_csv_text
+    csv_text = read_csv_text(path)
+    label = str(path)
+    for name in SITE_COLUMNS:
+        if name not in csv_text.header:
+            raise LaminaInputError(f"missing column '{name}'", f"{label}:{csv_text.header_line}",
+                                   "columns site, x_mm, y_mm (and optional wafer) plus measurement columns")
+    has_wafer = WAFER_COLUMN in csv_text.header
+    extra = SITE_COLUMNS + ((WAFER_COLUMN,) if has_wafer else ())
+    # collect=True: a bad cell marks its row instead of stopping the file
+    table = parse_table(csv_text, extra_columns=extra, collect=True)
+    labels, wafers, groups, x_mm, y_mm = _group_rows(table, label, has_wafer)
+    parsed, problems = [], []
+    for site, rows in zip(labels, groups):
+        data, problem = _site_dataset(table, rows, label, site)
+        parsed.append(data)
+        problems.append(problem)
+    counts: dict[tuple, int] = {}
+    for data in parsed:
+        if data is not None:
+            counts[_grid_key(data)] = counts.get(_grid_key(data), 0) + 1
+    if not counts:
+        raise LaminaInputError(f"no site can be read (first: {problems[0]})", label,
+                               "at least one site with valid measurements")
+    common = max(counts, key=counts.get)
+    template = next(d for d in parsed if d is not None and _grid_key(d) == common)
+    for i, data in enumerate(parsed):
+        if data is not None and _grid_key(data) != common:
+            parsed[i] = None
+            lines = table.lines[groups[i]]
+            problems[i] = (f"site '{labels[i]}' (lines {lines.min()}-{lines.max()}): its angles, wavelengths "
+                           f"or measured points differ from the rest of the map ({data.sizes['angle']} angles x "
+                           f"{data.sizes['wavelength']} wavelengths instead of {template.sizes['angle']} x "
+                           f"{template.sizes['wavelength']}, or points missing)")
+    return _stack_sites(template, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer)
+
+
+def _stack_sites(template: xr.Dataset, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer) -> xr.Dataset:
+    """Stack per-site datasets along a new `site` dim (numpy, not xr.concat: maps are long); unreadable = NaN."""
+    blank = {name: np.full(template[name].shape, np.nan) for name in template.data_vars}
+    data_vars = {}
+    for name in template.data_vars:
+        values = np.stack([data[name].values if data is not None else blank[name] for data in parsed])
+        data_vars[name] = (("site",) + template[name].dims, values, template[name].attrs)
+    stacked = xr.Dataset(data_vars, coords={
+        "site": ("site", np.asarray(labels, dtype=str)),
+        "angle": template["angle"],
+        "wavelength": template["wavelength"],
+        "x_mm": ("site", np.asarray(x_mm, dtype=float), {"units": "mm"}),
+        "y_mm": ("site", np.asarray(y_mm, dtype=float), {"units": "mm"}),
+        "wafer": ("site", np.asarray(wafers, dtype=str)),
+    })
+    stacked["site_problem"] = ("site", np.asarray(problems, dtype=object).astype(str))
+    stacked.attrs.update(template.attrs)
+    stacked.attrs["wafer_column"] = int(bool(has_wafer))
+    return stacked
+
+
+def _read_map_netcdf(path: Path) -> xr.Dataset:
+    try:
+        with xr.open_dataset(path, engine="h5netcdf") as opened:
+            dataset = opened.load()
+    except Exception as exc:  # any reader failure is a bad file, not a bug of ours
+        raise LaminaInputError(f"cannot read as NetCDF: {exc}", str(path), "a NetCDF-4 map file") from None
+    for dim in ("site", "angle", "wavelength"):
+        if dim not in dataset.dims:
+            raise LaminaInputError(f"missing dimension '{dim}'", str(path), "dims site, angle, wavelength")
+    for name in ("x_mm", "y_mm"):
+        if name not in dataset.variables or dataset[name].dims != ("site",):
+            raise LaminaInputError(f"missing coordinate '{name}' along site", str(path),
+                                   "coordinates x_mm, y_mm along site")
+        values = np.asarray(dataset[name].values, dtype=float)
+        bad = np.flatnonzero(~np.isfinite(values))
+        if bad.size:
+            raise LaminaInputError(f"{name} is not finite at site index {bad[0]}", f"{path}: {name}",
+                                   "finite coordinates in mm")
+    measured = [name for name in ("psi", "delta", "R", "T") if name in dataset.data_vars]
+    if not measured:
+        raise LaminaInputError("no measured variable", str(path), "one of psi, delta, R, T")
+    has_wafer = "wafer" in dataset.variables
+    labels = (dataset["site"].values.astype(str) if "site" in dataset.coords
+              else np.array([str(i + 1) for i in range(dataset.sizes["site"])]))
+    wafers = dataset["wafer"].values.astype(str) if has_wafer else np.full(dataset.sizes["site"], DEFAULT_WAFER)
+    problems = []
+    for i, label in enumerate(labels):
+        site = dataset.isel(site=i)
+        missing = [name for name in dataset.data_vars
+                   if "angle" in dataset[name].dims and not np.isfinite(site[name].values).all()]
+        problems.append(f"site '{label}': missing or non-finite values in {', '.join(missing)}" if missing else "")
+    dataset = dataset.assign_coords(site=("site", labels), wafer=("site", wafers),
+                                    x_mm=("site", np.asarray(dataset["x_mm"].values, dtype=float), {"units": "mm"}),
+                                    y_mm=("site", np.asarray(dataset["y_mm"].values, dtype=float), {"units": "mm"}))
+    dataset["site_problem"] = ("site", np.asarray(problems, dtype=object).astype(str))
+    dataset.attrs["wafer_column"] = int(has_wafer)
+    return dataset
+
+
+def check_on_wafer(dataset: xr.Dataset, geometry: WaferGeometry) -> None:
+    """Bad input if a site lies off the wafer (its coordinates cannot be right)."""
+    off = np.flatnonzero(~geometry.on_wafer(dataset["x_mm"].values, dataset["y_mm"].values))
+    if off.size:
+        i = int(off[0])
+        raise LaminaInputError(
+            f"site '{dataset['site'].values[i]}' at ({dataset['x_mm'].values[i]:g}, {dataset['y_mm'].values[i]:g}) mm "
+            f"lies off a {geometry.diameter_mm:g} mm wafer", dataset.attrs.get("source_file", "map"),
+            "sites within the wafer radius (check the spec's diameter_mm)")
+
+
+def site_data(dataset: xr.Dataset, index: int) -> xr.Dataset:
+    """The measurement of one site as a Dataset (angle, wavelength), as `lamina.read_data` gives it."""
+    site = dataset.isel(site=index)
+    return site.drop_vars([name for name in ("site", "x_mm", "y_mm", "wafer", "site_problem")
+                           if name in site.variables])
+
+
+# ----------------------------------------------------------------------------
+# fitting on dask
+# ----------------------------------------------------------------------------
+
+#: site_fit(stack, data, global_search) -> object with .to_dict() and .stack
+SiteFit = Callable[..., object]
+
+
+def default_site_fit(stack, data, global_search=False):
+    """The shipped per-site fit: `lamina.fit`."""
+    from .. import fit as fit_package
+    return fit_package.fit(stack, data, global_search=global_search)
+
+
+def _outcome_from_result(result, index: int, global_search: bool) -> dict:
+    summary = result.to_dict()
+    stats = summary.get("statistics", {})
+    parameters = summary.get("parameters", {})
+    outcome = {
+        "index": index,
+        "status": "fitted",
+        "reduced_chi2": float(stats.get("reduced_chi2", math.nan)),
+        "values": {name: float(entry.get("value", math.nan)) for name, entry in parameters.items()},
+        "stderr": {name: _float_or_nan(entry.get("stderr")) for name, entry in parameters.items()},
+        "warnings": list(summary.get("warnings", [])),
+        "global_search": bool(global_search),
+        "reason": "",
+    }
+    if not summary.get("converged", True):
+        outcome["status"] = "failed"
+        outcome["reason"] = "fit did not converge" + (
+            f" ({'; '.join(outcome['warnings'])})" if outcome["warnings"] else "")
+    elif not math.isfinite(outcome["reduced_chi2"]):
+        outcome["status"] = "failed"
+        outcome["reason"] = "fit gave a non-finite reduced chi-square"
+    return outcome
+
+
+def _float_or_nan(value) -> float:
+    try:
+        return float(value) if value is not None else math.nan
+    except (TypeError, ValueError):
+        return math.nan
+
+
+def _failed(index: int, reason: str) -> dict:
+    return {"index": index, "status": "failed", "reduced_chi2": math.nan, "values": {}, "stderr": {},
+            "warnings": [], "global_search": False, "reason": reason}
+
+
+def fit_site(stack, data, index: int, site_fit: SiteFit, global_search: bool) -> tuple[dict, object]:
+    """Fit one site; (outcome, fitted stack or None).  Never raises: a failure is an outcome."""
+    try:
+        result = site_fit(stack, data, global_search=global_search)
+        return _outcome_from_result(result, index, global_search), getattr(result, "stack", None)
+    except Exception as exc:  # one bad site must not stop the map; the reason is kept
+        text = str(exc) or type(exc).__name__
+        return _failed(index, f"fit failed: {text}"), None
+
+
+def fit_chunk(stack, chunk: xr.Dataset, indices: list[int], site_fit: SiteFit,
+              global_search: bool = False) -> list[dict]:
+    """Worker task: fit the sites of one chunk from the same starting stack."""
+    with _single_thread_blas():
+        return [fit_site(stack, site_data(chunk, j), index, site_fit, global_search)[0]
+                for j, index in enumerate(indices)]
+
+
+def fit_reference(stack, chunk: xr.Dataset, index: int, site_fit: SiteFit):
+    """Worker task: the reference site with the global search; (outcome, seed stack)."""
+    with _single_thread_blas():
+        outcome, fitted = fit_site(stack, site_data(chunk, 0), index, site_fit, True)
+    return outcome, (fitted if outcome["status"] == "fitted" and fitted is not None else None)
+
+
+@contextlib.contextmanager
+def _single_thread_blas():
+    """Keep BLAS to one thread inside a task when threadpoolctl is present (env vars do the rest)."""
+    try:
+        from threadpoolctl import threadpool_limits
+    except ImportError:  # pragma: no cover - optional
+        yield
+        return
+    with threadpool_limits(1):
+        yield
+
+
+@contextlib.contextmanager
+def dask_client(workers: int | None = None, scheduler: str | None = None):
+    """A dask.distributed Client: to `scheduler` if given, else on a new LocalCluster.
+
+    The local cluster has `workers` single-threaded worker processes (default:
+    one per core) with OMP/BLAS threads set to 1; no dashboard.
+    """
+    from distributed import Client, LocalCluster
+    if scheduler:
+        try:
+            client = Client(scheduler, timeout="10s")
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise LaminaInputError(f"cannot reach the dask scheduler: {exc}", f"--scheduler {scheduler}",
+                                   "the address of a running dask.distributed scheduler, e.g. tcp://host:8786") \
+                from None
+        with client:
+            yield client
+        return
+    if workers is None:
+        workers = max(1, os.cpu_count() or 1)
+    previous = {name: os.environ.get(name) for name in WORKER_ENV}
+    os.environ.update(WORKER_ENV)  # spawned workers inherit these before numpy loads
+    try:
+        with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+                          silence_logs=logging.ERROR, env=dict(WORKER_ENV)) as cluster, Client(cluster) as client:
+            yield client
+    finally:
+        for name, value in previous.items():
+            if value is None:
+                os.environ.pop(name, None)
+            else:
+                os.environ[name] = value
+
+
+def _chunks(indices: list[int], size: int) -> list[list[int]]:
+    return [indices[i:i + size] for i in range(0, len(indices), size)]
+
+
+def choose_chunk_size(n_sites: int, n_workers: int) -> int:
+    """About four chunks per worker (load balance) and at most 50 sites per chunk."""
+    return int(max(1, min(50, math.ceil(n_sites / max(1, 4 * n_workers)))))
+
+
+def _workers_of(client) -> int:
+    try:
+        return max(1, len(client.scheduler_info(n_workers=-1)["workers"]))
+    except TypeError:  # older distributed: no n_workers argument
+        return max(1, len(client.scheduler_info()["workers"]))
+
+
+def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
+            chunk_size: int | None = None, progress: Callable[[int], None] | None = None) -> list[dict]:
+    """Fit every site of `dataset` on the dask `client`; one outcome dict per site, in site order.
+
+    Outcome keys: index, status ("fitted" or "failed"), reduced_chi2, values,
+    stderr (by parameter name), warnings, global_search, reason, reference
+    (True for the reference site of its wafer), refit (True when the outlier
+    rule sent it through the global search again).
+    """
+    from distributed import as_completed
+    site_fit = site_fit or default_site_fit
+    n_sites = dataset.sizes["site"]
+    problems = dataset["site_problem"].values
+    outcomes: list[dict | None] = [None] * n_sites
+    tick = progress or (lambda n: None)
+    for i in np.flatnonzero(problems != ""):
+        outcomes[int(i)] = _failed(int(i), str(problems[i]))
+        tick(1)
+    model = client.scatter(stack, broadcast=True)
+
+    # 1. reference site of each wafer, global search
+    wafers = dataset["wafer"].values
+    references: dict[str, int] = {}
+    for wafer in dict.fromkeys(wafers):
+        usable = (wafers == wafer) & (problems == "")
+        if usable.any():
+            references[wafer] = reference_site(dataset["x_mm"].values, dataset["y_mm"].values, usable)
+    reference_futures = {wafer: client.submit(fit_reference, model, dataset.isel(site=[i]), i, site_fit,
+                                              pure=False)
+                         for wafer, i in references.items()}
+    seeds = {}
+    for wafer, future in reference_futures.items():
+        outcome, seed = future.result()
+        outcome["reference"] = True
+        outcomes[outcome["index"]] = outcome
+        tick(1)
+        seeds[wafer] = client.scatter(seed, broadcast=True) if seed is not None else model
+
+    # 2. the other sites in chunks, seeded from their wafer's reference
+    size = chunk_size or choose_chunk_size(n_sites, _workers_of(client))
+    futures = []
+    for wafer, seed in seeds.items():
+        todo = [i for i in range(n_sites) if wafers[i] == wafer and outcomes[i] is None]
+        for chunk in _chunks(todo, size):
+            futures.append(client.submit(fit_chunk, seed, dataset.isel(site=chunk), chunk, site_fit, False,
+                                         pure=False))
+    _collect(futures, outcomes, tick, as_completed)
+
+    # 3. outliers again with the global search, from the model's own start
+    again = outlier_sites(outcomes)
+    if again:
+        futures = [client.submit(fit_chunk, model, dataset.isel(site=chunk), chunk, site_fit, True, pure=False)
+                   for chunk in _chunks(again, size)]
+        retried: list[dict | None] = [None] * n_sites
+        _collect(futures, retried, lambda n: None, as_completed)
+        for i in again:
+            better = retried[i]
+            if better is not None and better["status"] == "fitted" and \
+                    better["reduced_chi2"] < outcomes[i]["reduced_chi2"]:
+                outcomes[i] = better
+            outcomes[i]["refit"] = True
+    for outcome in outcomes:
+        outcome.setdefault("reference", False)
+        outcome.setdefault("refit", False)
+    return outcomes
+
+
+def _collect(futures, outcomes, tick, as_completed) -> None:
+    for future in as_completed(futures):
+        chunk_outcomes = future.result()
+        for outcome in chunk_outcomes:
+            outcomes[outcome["index"]] = outcome
+        tick(len(chunk_outcomes))
+
+
+def outlier_sites(outcomes: Iterable[dict]) -> list[int]:
+    """Fitted sites whose reduced chi2 exceeds both OUTLIER_FACTOR x the median and OUTLIER_FLOOR."""
+    fitted = [o for o in outcomes if o is not None and o["status"] == "fitted" and not o.get("reference")]
+    if not fitted:
+        return []
+    median = float(np.median([o["reduced_chi2"] for o in fitted]))
+    limit = max(OUTLIER_FACTOR * median, OUTLIER_FLOOR)
+    return [o["index"] for o in fitted if o["reduced_chi2"] > limit]
+
+
+# ----------------------------------------------------------------------------
+# results and judgement
+# ----------------------------------------------------------------------------
+
+def results_dataset(dataset: xr.Dataset, outcomes: list[dict], parameters: list[str],
+                    geometry: WaferGeometry, spec=None, units: dict | None = None) -> xr.Dataset:
+    """Per-site results (dim site): status, pass, reduced_chi2, <name>, <name>.stderr, reason."""
+    units = units or {}
+    x_mm = dataset["x_mm"].values.astype(float)
+    y_mm = dataset["y_mm"].values.astype(float)
+    status = np.array([o["status"] for o in outcomes], dtype=object).astype(str)
+    fitted = status == "fitted"
+    in_zone = geometry.in_zone(x_mm, y_mm)
+    results = xr.Dataset(coords={
+        "site": ("site", dataset["site"].values.astype(str)),
+        "x_mm": ("site", x_mm, {"units": "mm"}),
+        "y_mm": ("site", y_mm, {"units": "mm"}),
+        "wafer": ("site", dataset["wafer"].values.astype(str)),
+    })
+    results["status"] = ("site", status)
+    results["radius_mm"] = ("site", geometry.radius_of(x_mm, y_mm), {"units": "mm"})
+    results["in_zone"] = ("site", in_zone.astype(np.int8),
+                          {"description": "1 inside the edge exclusion (judged and counted), else 0"})
+    results["reduced_chi2"] = ("site", np.array([o["reduced_chi2"] for o in outcomes], dtype=float))
+    for name in parameters:
+        value = np.array([o["values"].get(name, math.nan) for o in outcomes], dtype=float)
+        stderr = np.array([o["stderr"].get(name, math.nan) for o in outcomes], dtype=float)
+        value[~fitted] = np.nan
+        stderr[~fitted] = np.nan
+        results[name] = ("site", value, {"units": units.get(name, "")})
+        results[f"{name}.stderr"] = ("site", stderr, {"units": units.get(name, "")})
+    verdict = site_verdicts(results, parameters, spec)
+    results["pass"] = ("site", verdict, {"description": "1 pass, 0 fail, -1 not judged (no spec, outside the "
+                                                        "edge exclusion, or not fitted)"})
+    results["reference"] = ("site", np.array([o.get("reference", False) for o in outcomes], dtype=np.int8))
+    results["refit"] = ("site", np.array([o.get("refit", False) for o in outcomes], dtype=np.int8))
+    results["reason"] = ("site", np.array([o["reason"] for o in outcomes], dtype=object).astype(str))
+    results.attrs.update({"diameter_mm": geometry.diameter_mm, "edge_exclusion_mm": geometry.edge_exclusion_mm,
+                          "wafer_column": int(dataset.attrs.get("wafer_column", 0))})
+    return results
+
+
+def site_verdicts(results: xr.Dataset, parameters: list[str], spec) -> np.ndarray:
+    """Per site: 1 inside every limit, 0 outside one, -1 not judged."""
+    n_sites = results.sizes["site"]
+    verdict = np.full(n_sites, -1, dtype=np.int8)
+    if spec is None:
+        return verdict
+    judged = (results["status"].values == "fitted") & (results["in_zone"].values == 1)
+    inside = np.ones(n_sites, dtype=bool)
+    for name, (lower, upper) in spec.limits.items():
+        value = results[name].values
+        inside &= (value >= lower) & (value <= upper)
+    verdict[judged] = inside[judged].astype(np.int8)
+    return verdict
+
+
+def summarize(results: xr.Dataset, parameters: list[str], spec=None) -> dict:
+    """Per-wafer statistics over the sites in the zone, spec verdicts and failure counts."""
+    wafers = {}
+    for wafer in dict.fromkeys(results["wafer"].values.tolist()):
+        part = results.isel(site=np.flatnonzero(results["wafer"].values == wafer))
+        wafers[wafer] = _summarize_wafer(part, parameters, spec)
+    failed = int((results["status"].values == "failed").sum())
+    judged = [w["pass"] for w in wafers.values() if w["pass"] is not None]
+    return {
+        "n_sites": int(results.sizes["site"]),
+        "n_fitted": int(results.sizes["site"]) - failed,
+        "n_failed": failed,
+        "n_wafers": len(wafers),
+        "geometry": {"diameter_mm": float(results.attrs["diameter_mm"]),
+                     "edge_exclusion_mm": float(results.attrs["edge_exclusion_mm"])},
+        "spec": _spec_summary(spec),
+        "pass": (all(judged) if judged else None) if spec is not None else None,
+        "wafers": wafers,
+    }
+
+
+def _spec_summary(spec):
+    if spec is None:
+        return None
+    return {"path": spec.path,
+            "limits": {k: {"lower": lo, "upper": hi} for k, (lo, hi) in spec.limits.items()},
+            "uniformity": spec.uniformity}
+
+
+def _summarize_wafer(part: xr.Dataset, parameters: list[str], spec) -> dict:
+    fitted = part["status"].values == "fitted"
+    zone = part["in_zone"].values == 1
+    use = fitted & zone
+    stats = {name: {**map_statistics(part[name].values[use]), "unit": part[name].attrs.get("units", "")}
+             for name in parameters}
+    failed_in_zone = int((~fitted & zone).sum())
+    summary = {
+        "n_sites": int(part.sizes["site"]),
+        "n_in_zone": int(zone.sum()),
+        "n_failed": int((~fitted).sum()),
+        "n_failed_in_zone": failed_in_zone,
+        "failed_sites": part["site"].values[~fitted].tolist(),
+        "parameters": stats,
+        "pass": None,
+        "reasons": [],
+    }
+    if spec is not None:
+        summary["reasons"] = _wafer_reasons(part, stats, spec, use, failed_in_zone)
+        summary["pass"] = not summary["reasons"]
+    return summary
+
+
+def _wafer_reasons(part: xr.Dataset, stats: dict, spec, use: np.ndarray, failed_in_zone: int) -> list[str]:
+    reasons = []
+    if failed_in_zone:
+        reasons.append(f"{failed_in_zone} site(s) inside the edge exclusion could not be fitted")
+    if not use.any():
+        reasons.append("no fitted site inside the edge exclusion")
+    for name, (lower, upper) in spec.limits.items():
+        value = part[name].values[use]
+        outside = int(((value < lower) | (value > upper)).sum())
+        if outside:
+            labels = part["site"].values[use][(value < lower) | (value > upper)].tolist()
+            reasons.append(f"{name}: {outside} of {int(use.sum())} sites outside [{lower:g}, {upper:g}] "
+                           f"(sites {', '.join(labels[:10])}{', ...' if len(labels) > 10 else ''})")
+    for name, limits in spec.uniformity.items():
+        for key, limit in limits.items():
+            stat = "nonuniformity_pct" if key == "max_nonuniformity_pct" else "std_over_mean_pct"
+            value = stats[name][stat]
+            if not math.isfinite(value) or value > limit:
+                reasons.append(f"{name}: {stat} = {value:.3g} % exceeds {limit:g} %")
+    return reasons
+
+
+def wafer_table(summary: dict, parameters: list[str]) -> list[dict]:
+    """One row per wafer: counts, verdict and mean/range/nonuniformity of each parameter."""
+    rows = []
+    for wafer, entry in summary["wafers"].items():
+        row = {"wafer": wafer, "n_sites": entry["n_sites"], "n_failed": entry["n_failed"],
+               "pass": "" if entry["pass"] is None else str(entry["pass"]).lower()}
+        for name in parameters:
+            stats = entry["parameters"][name]
+            for key in ("mean", "std", "min", "max", "range", "nonuniformity_pct"):
+                row[f"{name}.{key}"] = stats[key]
+        row["reasons"] = "; ".join(entry["reasons"])
+        rows.append(row)
+    return rows
+
+
+def exit_code(summary: dict) -> int:
+    """3 when any site failed (wins over 1), 1 when any wafer fails the spec, else 0."""
+    if summary["n_failed"]:
+        return 3
+    if summary["pass"] is False:
+        return 1
+    return 0
