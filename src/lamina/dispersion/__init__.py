@@ -12,6 +12,13 @@ from typing import Mapping
 from ..errors import LaminaInputError
 from .base import Dispersion, Resolver
 from .constant import Constant
+from .cauchy import Cauchy
+from .sellmeier import Sellmeier
+from .lorentz import Lorentz
+from .drude import Drude
+from .composite import Sum
+from .tabulated import Table
+from .ema import Bruggeman, MaxwellGarnett
 from .tauc_lorentz import TaucLorentz
 from .gaussian import Gaussian
 
@@ -24,6 +31,14 @@ def register(cls: type[Dispersion]) -> type[Dispersion]:
 
 
 register(Constant)
+register(Cauchy)
+register(Sellmeier)
+register(Lorentz)
+register(Drude)
+register(Sum)
+register(Table)
+register(Bruggeman)
+register(MaxwellGarnett)
 register(TaucLorentz)
 register(Gaussian)
 
@@ -40,4 +55,5 @@ def from_toml(table: Mapping, where: str, resolve: Resolver | None = None) -> Di
     return LAWS[law].from_toml(table, where, resolve)
 
 
-__all__ = ["Dispersion", "LAWS", "register", "from_toml", "Constant"]
+__all__ = ["Dispersion", "LAWS", "register", "from_toml", "Constant", "Cauchy", "Sellmeier", "Lorentz",
+           "Drude", "Sum", "Table", "Bruggeman", "MaxwellGarnett"]

@@ -60,6 +60,33 @@ class Dispersion:
         """Complex epsilon for parameter values `p` (floats or (B, 1) arrays)."""
         raise NotImplementedError
 
+    def _susceptibility(self, photon_energy_ev: np.ndarray, p: Mapping[str, object]) -> np.ndarray:
+        """Complex susceptibility chi(E) = epsilon - background (the law's ``eps_inf``, or 1).
+
+        The hook through which a law becomes a term of the ``sum`` law
+        (dispersion/composite.py): a term contributes chi only, its background
+        parameter (named in ``BACKGROUND``) is left out.  Laws that cannot be a
+        term (Cauchy, tables, constants) keep this default.
+        """
+        raise NotImplementedError(f"law '{self.law}' has no susceptibility")
+
+    #: parameter that is the law's constant background (dropped when the law is
+    #: a term of a ``sum``); None when the background is the vacuum's 1
+    BACKGROUND: ClassVar[str | None] = "eps_inf"
+
+    @classmethod
+    def has_susceptibility(cls) -> bool:
+        """True when the law implements `_susceptibility` (may be a term of a ``sum``)."""
+        return cls._susceptibility is not Dispersion._susceptibility
+
+    def susceptibility_ev(self, photon_energy_ev, values: Mapping[str, object] | None = None) -> np.ndarray:
+        """Complex susceptibility epsilon - background at photon energies (eV); batched like epsilon_ev."""
+        energy = np.asarray(photon_energy_ev, dtype=float)
+        p, batched = self.param_values(values)
+        chi = np.asarray(self._susceptibility(energy, p), dtype=complex)
+        shape = ((max(np.shape(v)[0] for v in p.values() if np.ndim(v)),) if batched else ()) + energy.shape
+        return np.broadcast_to(chi, shape) if chi.shape != shape else chi
+
     @classmethod
     def from_toml(cls, table: Mapping, where: str, resolve: Resolver | None = None) -> "Dispersion":
         """Build the law from its model-file table (``law`` key included)."""
@@ -188,3 +215,67 @@ def read_params(table: Mapping, specs: Mapping[str, ParamSpec], where: str,
         else:
             raise LaminaInputError(f"missing parameter '{local}'", where, f"a value for '{local}'")
     return params
+
+
+# -- helpers for laws with a list of parameter tables (oscillators, terms) -----
+
+def list_key(list_name: str, index: int, name: str) -> str:
+    """Local name of a list item's parameter, 1-based: ``oscillators.2.center_ev``."""
+    return f"{list_name}.{index}.{name}"
+
+
+def read_param_list(raw, list_name: str, item_specs: Mapping[str, ParamSpec], where: str,
+                    defaults: Mapping[str, float] | None = None, allow_empty: bool = False
+                    ) -> tuple[dict[str, Param], dict[str, ParamSpec]]:
+    """Params and specs for a model-file list of tables, e.g. ``oscillators = [{...}, ...]``.
+
+    `where` names the list itself (``film.material.oscillators``); items are
+    reported as ``<where>.<i>`` (1-based).  Items may hold plain numbers, Param
+    tables or Param objects.
+    """
+    expected = "a list of tables {" + ", ".join(item_specs) + "}"
+    if isinstance(raw, (str, bytes, Mapping)) or not hasattr(raw, "__len__"):
+        raise LaminaInputError(f"{raw!r} is not a list of tables", where, expected)
+    if len(raw) == 0 and not allow_empty:
+        raise LaminaInputError("the list is empty", where, "at least one entry: " + expected)
+    params: dict[str, Param] = {}
+    specs: dict[str, ParamSpec] = {}
+    for index, item in enumerate(raw, start=1):
+        item_where = f"{where}.{index}"
+        if not isinstance(item, Mapping):
+            raise LaminaInputError(f"{item!r} is not a table", item_where, expected)
+        check_keys(item, set(item_specs), item_where)
+        for name, spec in item_specs.items():
+            key = list_key(list_name, index, name)
+            if name in item:
+                params[key] = as_param(item[name], spec, f"{item_where}.{name}")
+            elif defaults is not None and name in defaults:
+                params[key] = Param(float(defaults[name]), unit=spec.unit)
+            else:
+                raise LaminaInputError(f"missing parameter '{name}'", item_where, f"a value for '{name}'")
+            specs[key] = spec
+    return params, specs
+
+
+def list_length(keys, list_name: str) -> int:
+    """Number of items of list `list_name` among local parameter names."""
+    prefix = list_name + "."
+    return max((int(k[len(prefix):].split(".", 1)[0]) for k in keys if k.startswith(prefix)), default=0)
+
+
+def list_values(p: Mapping[str, object], list_name: str, names) -> list[dict]:
+    """Per-item values ``[{name: value}, ...]`` of a parameter list, from flat local names."""
+    return [{name: p[list_key(list_name, i, name)] for name in names}
+            for i in range(1, list_length(p, list_name) + 1)]
+
+
+def list_to_toml(params: Mapping[str, Param], list_name: str, names) -> list[dict]:
+    """The model-file list of tables for a parameter list (inverse of `read_param_list`)."""
+    return [{name: params[list_key(list_name, i, name)].to_toml() for name in names}
+            for i in range(1, list_length(params, list_name) + 1)]
+
+
+def coerce_params(values: Mapping[str, object], specs: Mapping[str, ParamSpec], where: str = ""
+                  ) -> dict[str, Param]:
+    """Params from constructor arguments (numbers, Param tables or Params), checked against specs."""
+    return {key: as_param(values[key], specs[key], f"{where}.{key}" if where else key) for key in specs}
