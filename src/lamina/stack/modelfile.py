@@ -31,6 +31,9 @@ LAYER_KEYS = ("name", "thickness_nm", "material", "coherent")
 MEDIUM_KEYS = {"ambient": ("material",), "substrate": ("material", "thickness_mm"), "exit": ("material",)}
 INSTRUMENT_KEYS = ("bandwidth_nm", "angle_spread_deg", "thickness_nonuniformity_pct")
 
+#: private key of Stack.extras: the folder of the model file (never written to a file)
+MODEL_DIR_KEY = "_model_dir"
+
 #: media a model file may name without the material library (so that a model
 #: with inline laws works even where the library is unavailable)
 _BUILTIN_MEDIA = {"air": "n = 1 (vacuum; air differs by ~3e-4)", "vacuum": "n = 1"}
@@ -120,9 +123,12 @@ def model_from_text(text: str, label: str = "<model>", base_dir: str | os.PathLi
     """Parse model-file text; `label` names the source in messages, `base_dir` anchors relative paths."""
     table = parse_toml(text, label)
     try:
-        return stack_from_table(table, MaterialResolver(base_dir))
+        stack = stack_from_table(table, MaterialResolver(base_dir))
     except LaminaInputError as exc:
         raise _prefixed(exc, label) from None
+    # where relative data-file paths (law = "table") start; save_model re-bases them
+    stack.extras[MODEL_DIR_KEY] = str(Path(base_dir).resolve()) if base_dir is not None else str(Path.cwd())
+    return stack
 
 
 def parse_toml(text: str, label: str) -> dict:
@@ -135,7 +141,8 @@ def parse_toml(text: str, label: str) -> dict:
         problem = re.sub(r"\s*\(at line \d+, column \d+\)", "", message) or "syntax error"
         where = f"{label}:{match.group(1)}:{match.group(2)}" if match else label
         if not match and "end of document" in message:
-            where = f"{label}:{text.count(chr(10)) + 1}"
+            # the parser ran off the end: point at the last line with content
+            where = f"{label}:{max(1, len(text.rstrip().splitlines()))}"
         raise LaminaInputError(f"invalid TOML: {problem}", where, "TOML syntax (https://toml.io)") from None
 
 
@@ -325,16 +332,42 @@ def _layer_table(layer: Layer) -> dict:
     return entry
 
 
-def stack_to_toml(stack: Stack) -> str:
-    """Model-file text of a stack; `load_model` of this text gives the same stack."""
+def stack_to_toml(stack: Stack, destination_dir: str | os.PathLike | None = None) -> str:
+    """Model-file text of a stack; `load_model` of this text gives the same stack.
+
+    With `destination_dir`, relative data-file paths (``law = "table"``) are
+    rewritten relative to that folder so the written file finds them.
+    """
     header = "# lamina model file (see docs/model-file.md)\n"
-    return header + dumps_toml(stack_to_table(stack))
+    table = stack_to_table(stack)
+    source_dir = stack.extras.get(MODEL_DIR_KEY)
+    if destination_dir is not None and source_dir is not None:
+        _rebase_files(table, Path(source_dir), Path(destination_dir).resolve())
+    return header + dumps_toml(table)
+
+
+def _rebase_files(node, source_dir: Path, destination_dir: Path) -> None:
+    """Rewrite relative ``file`` entries of table laws from `source_dir` to `destination_dir`."""
+    if isinstance(node, Mapping):
+        file = node.get("file")
+        if node.get("law") == "table" and isinstance(file, str) and not Path(file).is_absolute():
+            target = (source_dir / file).resolve()
+            try:
+                node["file"] = Path(os.path.relpath(target, destination_dir)).as_posix()
+            except ValueError:  # another drive (Windows): keep it absolute
+                node["file"] = str(target)
+        for value in node.values():
+            _rebase_files(value, source_dir, destination_dir)
+    elif isinstance(node, list):
+        for value in node:
+            _rebase_files(value, source_dir, destination_dir)
 
 
 def save_model(stack: Stack, path: str | os.PathLike) -> Path:
     """Write `stack` as a model file, atomically (a temporary file, then rename)."""
     from ..data.writers import atomic_write_text
-    return atomic_write_text(path, stack_to_toml(stack))
+    path = Path(path)
+    return atomic_write_text(path, stack_to_toml(stack, path.parent if str(path.parent) else Path(".")))
 
 
 # ---------------------------------------------------------------------------

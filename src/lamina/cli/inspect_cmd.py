@@ -1,0 +1,95 @@
+"""`lamina inspect`: summarise and validate model files and measurement files."""
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+from ..errors import LaminaInputError
+
+HELP = "summarise and validate a model or measurement file"
+DESCRIPTION = (
+    "Read a model file (.toml) or a measurement file (.csv, .nc) with the same checks as\n"
+    "'lamina fit', and print a summary: layers, materials, thicknesses and free parameters of\n"
+    "a model; quantities, wavelength range, angles, point count and metadata of a measurement.\n"
+    "A file with a problem gives one message naming the file, line/key and what was expected,\n"
+    "and exit code 2."
+)
+EXAMPLE = "  lamina inspect oxide_on_si.toml\n  lamina inspect oxide_on_si_ellips.csv rt_normal.csv\n"
+
+
+def add_arguments(parser) -> None:
+    parser.add_argument("files", nargs="+", metavar="FILE", help="model file (.toml) or measurement file (.csv, .nc)")
+
+
+def run(args) -> int:
+    for index, name in enumerate(args.files):
+        if index:
+            print()
+        path = Path(name)
+        lines = inspect_model(path) if path.suffix.lower() == ".toml" else inspect_data(path)
+        print("\n".join(lines))
+    return 0
+
+
+def _fmt(value: float) -> str:
+    return "-" if math.isinf(value) else f"{value:g}"
+
+
+def inspect_model(path: Path) -> list[str]:
+    """Summary lines of a model file (raises LaminaInputError on a bad file)."""
+    from ..stack.modelfile import load_model
+
+    stack = load_model(path)
+    lines = [f"model file {path}" + (f": {stack.name}" if stack.name else ""), ""]
+    lines += ["  " + line for line in stack.describe().splitlines()]
+    lines += ["", "materials:"]
+    for owner, material in stack._materials():
+        label = material.name or f"inline law '{material.law}'"
+        detail = []
+        if material.valid_range_nm is not None:
+            detail.append(f"valid {material.valid_range_nm[0]:g}-{material.valid_range_nm[1]:g} nm")
+        if material.source:
+            detail.append(material.source)
+        lines.append(f"  {owner:<10s} {label}" + (f"  ({'; '.join(detail)})" if detail else ""))
+    params = stack.parameters()
+    free = {k: p for k, p in params.items() if p.is_free}
+    tied = {k: p for k, p in params.items() if p.expr is not None}
+    lines += ["", f"parameters: {len(params)} in all, {len(free)} free, {len(tied)} tied"]
+    if free:
+        width = max(len(k) for k in free)
+        lines.append(f"  {'free parameter':<{width}s}  {'value':>10s}  {'min':>10s}  {'max':>10s}  unit")
+        for name, p in free.items():
+            lines.append(f"  {name:<{width}s}  {p.value:10.5g}  {_fmt(p.min):>10s}  {_fmt(p.max):>10s}  {p.unit}")
+    for name, p in tied.items():
+        lines.append(f"  {name} = {p.expr}  (tied)")
+    instrument = stack.extras.get("instrument")
+    if instrument:
+        lines += ["", "instrument: " + ", ".join(f"{k} = {v:g}" for k, v in instrument.items())]
+    samples = stack.extras.get("samples")
+    if samples:
+        names = ", ".join(str(s.get("name", f"#{i}")) for i, s in enumerate(samples, start=1))
+        lines += ["", f"samples: {len(samples)} ({names})"]
+    lines += ["", "ok: the model file is valid"]
+    return lines
+
+
+def inspect_data(path: Path) -> list[str]:
+    """Summary lines of a measurement file (raises LaminaInputError on a bad file)."""
+    from ..data.readers import describe_dataset, read_data
+
+    ds = read_data(path)
+    points = sum(int((~ds[q].isnull()).sum()) for q in ds.data_vars if not str(q).endswith("_err"))
+    lines = [f"measurement file {path}", f"  sha256 {ds.attrs.get('sha256', '?')}"]
+    lines += ["  " + line for line in describe_dataset(ds)]
+    lines.append(f"  {points} measured values in all")
+    meta = {k: v for k, v in ds.attrs.items() if k not in ("source_file", "sha256")}
+    if meta:
+        lines.append("metadata:")
+        for key, value in meta.items():
+            text = str(value).replace("\n", " / ")
+            lines.append(f"  {key}: {text if len(text) <= 100 else text[:97] + '...'}")
+    lines.append("ok: the measurement file is valid")
+    return lines
+
+
+__all__ = ["HELP", "EXAMPLE", "add_arguments", "run", "inspect_model", "inspect_data", "LaminaInputError"]
