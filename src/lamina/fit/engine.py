@@ -299,8 +299,11 @@ def _model_outputs(problem, x, residuals):
             "quantity": [QUANTITIES[c] for c in block.quantity_code], "data": block.data, "model": model,
             "residual": raw, "sigma": block.sigma,
         }))
+        rows[-1].attrs["block"] = len(rows) - 1
         start += block.n_points
-    return datasets, pd.concat(rows, ignore_index=True)
+    points = pd.concat(rows, ignore_index=True)
+    points.attrs["block_sizes"] = [len(r) for r in rows]
+    return datasets, points
 
 
 def _provenance(problem, stack, model_label) -> dict:
