@@ -177,6 +177,12 @@ def _read_map_csv(path: Path) -> xr.Dataset:
         data, problem = _site_dataset(table, rows, label, site)
         parsed.append(data)
         problems.append(problem)
+    where = [f"lines {table.lines[rows].min()}-{table.lines[rows].max()}" for rows in groups]
+    return _assemble(parsed, problems, labels, wafers, x_mm, y_mm, has_wafer, where, label)
+
+
+def _assemble(parsed, problems, labels, wafers, x_mm, y_mm, has_wafer, where, label) -> xr.Dataset:
+    """Sites on the grid most of them share; a site on another grid becomes unreadable."""
     counts: dict[tuple, int] = {}
     for data in parsed:
         if data is not None:
@@ -189,11 +195,10 @@ def _read_map_csv(path: Path) -> xr.Dataset:
     for i, data in enumerate(parsed):
         if data is not None and _grid_key(data) != common:
             parsed[i] = None
-            lines = table.lines[groups[i]]
-            problems[i] = (f"site '{labels[i]}' (lines {lines.min()}-{lines.max()}): its angles, wavelengths "
-                           f"or measured points differ from the rest of the map ({data.sizes['angle']} angles x "
-                           f"{data.sizes['wavelength']} wavelengths instead of {template.sizes['angle']} x "
-                           f"{template.sizes['wavelength']}, or points missing)")
+            problems[i] = (f"site '{labels[i]}' ({where[i]}): its angles, wavelengths or measured points differ "
+                           f"from the rest of the map ({data.sizes['angle']} angles x {data.sizes['wavelength']} "
+                           f"wavelengths instead of {template.sizes['angle']} x {template.sizes['wavelength']}, "
+                           f"or points missing)")
     return _stack_sites(template, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer)
 
 
@@ -219,42 +224,39 @@ def _stack_sites(template: xr.Dataset, parsed, problems, labels, wafers, x_mm, y
 
 
 def _read_map_netcdf(path: Path) -> xr.Dataset:
-    try:
-        with xr.open_dataset(path, engine="h5netcdf") as opened:
-            dataset = opened.load()
-    except Exception as exc:  # any reader failure is a bad file, not a bug of ours
-        raise LaminaInputError(f"cannot read as NetCDF: {exc}", str(path), "a NetCDF-4 map file") from None
+    """NetCDF map; each site is checked like a measurement file (the reader's checks, site by site)."""
+    from ..data.readers import _check_netcdf, open_netcdf
+    label = str(path)
+    dataset = open_netcdf(path)
     for dim in ("site", "angle", "wavelength"):
         if dim not in dataset.dims:
-            raise LaminaInputError(f"missing dimension '{dim}'", str(path), "dims site, angle, wavelength")
+            raise LaminaInputError(f"missing dimension '{dim}'", label, "dims site, angle, wavelength")
     for name in ("x_mm", "y_mm"):
         if name not in dataset.variables or dataset[name].dims != ("site",):
-            raise LaminaInputError(f"missing coordinate '{name}' along site", str(path),
+            raise LaminaInputError(f"missing coordinate '{name}' along site", label,
                                    "coordinates x_mm, y_mm along site")
-        values = np.asarray(dataset[name].values, dtype=float)
-        bad = np.flatnonzero(~np.isfinite(values))
+        bad = np.flatnonzero(~np.isfinite(np.asarray(dataset[name].values, dtype=float)))
         if bad.size:
-            raise LaminaInputError(f"{name} is not finite at site index {bad[0]}", f"{path}: {name}",
+            raise LaminaInputError(f"{name} is not finite at site index {bad[0]}", f"{label}: {name}",
                                    "finite coordinates in mm")
-    measured = [name for name in ("psi", "delta", "R", "T") if name in dataset.data_vars]
-    if not measured:
-        raise LaminaInputError("no measured variable", str(path), "one of psi, delta, R, T")
-    has_wafer = "wafer" in dataset.variables
-    labels = (dataset["site"].values.astype(str) if "site" in dataset.coords
-              else np.array([str(i + 1) for i in range(dataset.sizes["site"])]))
-    wafers = dataset["wafer"].values.astype(str) if has_wafer else np.full(dataset.sizes["site"], DEFAULT_WAFER)
-    problems = []
-    for i, label in enumerate(labels):
-        site = dataset.isel(site=i)
-        missing = [name for name in dataset.data_vars
-                   if "angle" in dataset[name].dims and not np.isfinite(site[name].values).all()]
-        problems.append(f"site '{label}': missing or non-finite values in {', '.join(missing)}" if missing else "")
-    dataset = dataset.assign_coords(site=("site", labels), wafer=("site", wafers),
-                                    x_mm=("site", np.asarray(dataset["x_mm"].values, dtype=float), {"units": "mm"}),
-                                    y_mm=("site", np.asarray(dataset["y_mm"].values, dtype=float), {"units": "mm"}))
-    dataset["site_problem"] = ("site", np.asarray(problems, dtype=object).astype(str))
-    dataset.attrs["wafer_column"] = int(has_wafer)
-    return dataset
+    has_wafer = WAFER_COLUMN in dataset.variables
+    n_sites = dataset.sizes["site"]
+    labels = ([str(v) for v in dataset["site"].values] if "site" in dataset.variables
+              else [str(i + 1) for i in range(n_sites)])
+    wafers = [str(v) for v in dataset[WAFER_COLUMN].values] if has_wafer else [DEFAULT_WAFER] * n_sites
+    measurements = dataset.drop_vars([name for name in ("site", "x_mm", "y_mm", WAFER_COLUMN)
+                                      if name in dataset.variables])
+    parsed, problems = [], []
+    for i, site in enumerate(labels):
+        try:
+            parsed.append(_check_netcdf(measurements.isel(site=i), f"{label}: site '{site}'"))
+            problems.append("")
+        except LaminaInputError as exc:
+            parsed.append(None)
+            problems.append(str(exc))
+    where = [f"site index {i}" for i in range(n_sites)]
+    return _assemble(parsed, problems, labels, wafers, dataset["x_mm"].values.astype(float),
+                     dataset["y_mm"].values.astype(float), has_wafer, where, label)
 
 
 def check_on_wafer(dataset: xr.Dataset, geometry: WaferGeometry) -> None:

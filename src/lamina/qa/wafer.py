@@ -16,9 +16,10 @@ import numpy as np
 #: when no spec file says it (common practice: SEMI standard wafer sizes).
 STANDARD_DIAMETERS_MM = (50.8, 76.2, 100.0, 125.0, 150.0, 200.0, 300.0, 450.0)
 
-#: notch depth and half width drawn on plots (mm); drawing only, not used in statistics
-NOTCH_DEPTH_MM = 1.0
-NOTCH_HALF_WIDTH_MM = 1.5
+#: notch depth and half width drawn on plots (mm; larger than a real notch so that it shows);
+#: drawing only, not used in statistics
+NOTCH_DEPTH_MM = 2.5
+NOTCH_HALF_WIDTH_MM = 2.5
 
 
 @dataclass(frozen=True)
