@@ -1,0 +1,214 @@
+"""The forward solver: `solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)`.
+
+Inputs are what `Stack.optical_inputs` produces: complex indices of every
+medium (ambient first, exit last), each (W,) or (*batch, W); one thickness
+(nm; float or (*batch,)) and one coherence flag per inner medium.  Outputs are
+arrays of shape (*batch, A, W), keyed
+
+    rs rp ts tp   amplitude coefficients (tp: ratio of the full electric fields)
+    Rs Rp Ts Tp   reflectances and transmittances per polarization
+    R T A         unpolarized averages and absorptance A = 1 - R - T
+    psi delta     ellipsometric angles, degrees (delta in [0, 360))
+    N C S P       normalized Mueller elements and degree of polarization
+    eps_pseudo    pseudo-dielectric function <eps> (complex)
+
+With an incoherent layer the amplitudes are those of the coherent part in
+front of the first thick layer (the front-surface reflection), not of the
+whole sample, whose reflected light is a sum of intensities; all the other
+quantities are of the whole sample.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import LaminaInputError
+from .coherent import block_both_ways, block_forward, layer_terms, normal_component
+from .ellipsometry import mueller_from_sums, pseudo_dielectric, psi_delta_from_mueller
+from .incoherent import combine, single_pass_transmission
+
+#: the keys of the dict `solve` returns
+KEYS = ("rs", "rp", "ts", "tp", "Rs", "Rp", "Ts", "Tp", "R", "T", "A",
+        "psi", "delta", "N", "C", "S", "P", "eps_pseudo")
+
+#: angle (deg) at which <eps> is evaluated in place of exact normal incidence,
+#: where it is 0 * inf; the relative error of the limit is of order theta^2 ~ 3e-8.
+NEAR_NORMAL_DEG = 0.01
+
+_WHERE = "optics.solve"
+
+
+class RawResponse:
+    """Sums the ellipsometric and photometric quantities are built from."""
+
+    __slots__ = ("rs", "rp", "ts", "tp", "rs2", "rp2", "cross", "Ts", "Tp")
+
+    def __init__(self, **kw):
+        for key, value in kw.items():
+            setattr(self, key, value)
+
+
+def solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg, *, pseudo_dielectric: bool = True):
+    """Reflection, transmission and ellipsometric response of a layer stack.
+
+    See the module docstring for inputs and outputs.  Scalars for wavelength
+    or angle count as length-1 arrays.  With ``pseudo_dielectric=False`` the
+    extra near-normal evaluation for <eps> at angle 0 is skipped (<eps> there
+    is then NaN); fitters that do not use <eps> may set it.
+    """
+    prepared = prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)
+    n_full, d_full, coherent, k0, angle_rad, shape = prepared
+    raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad))
+    out = finish(raw, np.sin(angle_rad), n_full[0] * n_full[0], shape)
+    normal = angle_rad[:, 0] == 0.0
+    if pseudo_dielectric and np.any(normal):
+        near = np.full((int(normal.sum()), 1), np.radians(NEAR_NORMAL_DEG))
+        raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near))
+        near_shape = shape[:-2] + (near.shape[0], shape[-1])
+        out["eps_pseudo"][..., normal, :] = finish(raw_near, np.sin(near), n_full[0] * n_full[0],
+                                                   near_shape)["eps_pseudo"]
+    return out
+
+
+def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
+    """Check the inputs and give them broadcastable shapes (*batch, A, W).
+
+    Returns (n_full, d_full, coherent, k0, angle_rad, shape): indices as
+    (*batch, 1, W), thicknesses as (*batch, 1, 1), k0 = 2 pi / lambda as (W,),
+    angles (radians) as (A, 1), and the full output shape.
+    """
+    wavelength = _as_1d(wavelength_nm, "wavelength_nm")
+    angle = _as_1d(angle_deg, "angle_deg")
+    if not np.all(np.isfinite(wavelength) & (wavelength > 0)):
+        raise LaminaInputError("wavelength_nm holds a value that is not a positive number", _WHERE,
+                               "wavelengths > 0 nm")
+    if not np.all(np.isfinite(angle) & (angle >= 0) & (angle < 90)):
+        raise LaminaInputError("angle_deg holds a value outside [0, 90)", _WHERE, "0 <= angle < 90 degrees")
+    n_media = list(n_media)
+    inner = len(n_media) - 2
+    if inner < 0:
+        raise LaminaInputError(f"{len(n_media)} media given", _WHERE, "at least an ambient and an exit medium")
+    thickness_nm, coherent = list(thickness_nm), [bool(c) for c in coherent]
+    if len(thickness_nm) != inner or len(coherent) != inner:
+        raise LaminaInputError(
+            f"{len(n_media)} media but {len(thickness_nm)} thicknesses and {len(coherent)} coherence flags",
+            _WHERE, f"{inner} thicknesses and flags (one per inner medium)")
+    width = wavelength.size
+    indices, batch_shapes = [], []
+    for pos, n in enumerate(n_media):
+        n = np.asarray(n, dtype=complex)
+        if n.ndim == 0:
+            n = np.full(width, n)
+        if n.shape[-1] not in (width, 1):
+            raise LaminaInputError(f"medium {pos} has {n.shape[-1]} index values for {width} wavelengths",
+                                   _WHERE, "one index per wavelength")
+        batch_shapes.append(n.shape[:-1])
+        indices.append(n)
+    depths = []
+    for pos, d in enumerate(thickness_nm):
+        d = np.asarray(d, dtype=float)
+        if not np.all(np.isfinite(d) & (d >= 0)):
+            raise LaminaInputError(f"thickness of inner medium {pos + 1} is negative or not a number",
+                                   _WHERE, "thickness_nm >= 0")
+        batch_shapes.append(d.shape)
+        depths.append(d)
+    try:
+        batch = np.broadcast_shapes(*batch_shapes)
+    except ValueError:
+        raise LaminaInputError(f"batch shapes {batch_shapes} do not match", _WHERE,
+                               "the same leading batch shape for every array") from None
+    n_full = [n.reshape(n.shape[:-1] + (1, n.shape[-1])) for n in indices]
+    d_full = [d.reshape(d.shape + (1, 1)) for d in depths]
+    k0 = 2.0 * np.pi / wavelength
+    angle_rad = np.radians(angle)[:, None]
+    return n_full, d_full, coherent, k0, angle_rad, tuple(batch) + (angle.size, width)
+
+
+def _as_1d(values, name):
+    arr = np.asarray(values, dtype=float)
+    if arr.ndim == 0:
+        arr = arr.reshape(1)
+    if arr.ndim != 1:
+        raise LaminaInputError(f"{name} has shape {arr.shape}", _WHERE, f"a number or a 1-D array for {name}")
+    return arr
+
+
+def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
+    """Amplitudes of the front part and the (R_s, R_p, X, T_s, T_p) sums.
+
+    All arguments broadcast to the output shape; `coherent` has one flag per
+    inner medium.  The ambient angle is real: kx = N_0 sin(theta_0), complex
+    when the ambient absorbs.
+    """
+    n_ambient = n_full[0]
+    absorbing_ambient = bool(np.any(n_ambient.imag != 0))
+    kx = n_ambient * sin0 if absorbing_ambient else n_ambient.real * sin0
+    kx2 = kx * kx
+    q = [n_ambient * cos0] + [normal_component(n, kx2, absorbing_ambient) for n in n_full[1:]]
+    eps = [n * n for n in n_full]
+    zeta = [qj / ej for qj, ej in zip(q, eps)]  # p admittance (tangential-H form)
+
+    boundaries = [0] + [j + 1 for j, c in enumerate(coherent) if not c] + [len(n_full) - 1]
+    blocks_s, blocks_p, passes = [], [], []
+    for top, bottom in zip(boundaries[:-1], boundaries[1:]):
+        layers_s, layers_p = [], []
+        for j in range(top + 1, bottom):
+            cos_d, sin_over_q, q_sin = layer_terms(q[j], d_full[j - 1], k0)
+            layers_s.append((cos_d, -1j * sin_over_q, -1j * q_sin))
+            layers_p.append((cos_d, (-1j * eps[j]) * sin_over_q, -1j * q_sin / eps[j]))
+        is_last = bottom == boundaries[-1]
+        block = block_forward if is_last else block_both_ways
+        blocks_s.append(block(q[top], q[bottom], layers_s))
+        blocks_p.append(block(zeta[top], zeta[bottom], layers_p))
+        if not is_last:
+            passes.append(single_pass_transmission(q[bottom], d_full[bottom - 1], k0))
+
+    sums = combine(blocks_s, blocks_p, passes)
+    front_bottom = boundaries[1]
+    rs, rp = blocks_s[0].r, blocks_p[0].r
+    ts = blocks_s[0].t
+    tp = blocks_p[0].t * (n_ambient / n_full[front_bottom])  # H-field ratio -> E-field ratio
+    exit_s = q[-1].real / q[0].real
+    exit_p = zeta[-1].real / zeta[0].real
+    raw = RawResponse(rs=rs, rp=rp, ts=ts, tp=tp, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
+                      Ts=sums.ts2 * exit_s, Tp=sums.tp2 * exit_p)
+    normal = sin0 == 0
+    if np.any(normal):
+        _impose_normal_incidence(raw, normal)
+    return raw
+
+
+def _impose_normal_incidence(raw: RawResponse, normal):
+    """At normal incidence s and p are the same wave: r_p = -r_s, t_p = t_s exactly
+    (so X = r_s conj(r_p) = -|r_s|^2).
+
+    Imposed so that rounding (or a 0/0 for a perfect anti-reflection stack)
+    cannot produce a spurious Delta; rho = -1 is also the limit theta -> 0.
+    """
+    raw.rp = np.where(normal, -raw.rs, raw.rp)
+    raw.tp = np.where(normal, raw.ts, raw.tp)
+    raw.rp2 = np.where(normal, raw.rs2, raw.rp2)
+    raw.cross = np.where(normal, -raw.rs2, raw.cross)
+    raw.Tp = np.where(normal, raw.Ts, raw.Tp)
+
+
+def finish(raw: RawResponse, sin_theta, eps_ambient, shape) -> dict:
+    """All output quantities, each broadcast to `shape`, from the raw sums."""
+    reflect = 0.5 * (raw.rs2 + raw.rp2)
+    transmit = 0.5 * (raw.Ts + raw.Tp)
+    cos_2theta = 1.0 - 2.0 * sin_theta * sin_theta
+    n_elem, c_elem, s_elem, polarization = mueller_from_sums(raw.rs2, raw.rp2, raw.cross, cos_2theta)
+    psi, delta = psi_delta_from_mueller(n_elem, c_elem, s_elem)
+    eps = pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_theta, eps_ambient)
+    values = {"rs": raw.rs, "rp": raw.rp, "ts": raw.ts, "tp": raw.tp,
+              "Rs": raw.rs2, "Rp": raw.rp2, "Ts": raw.Ts, "Tp": raw.Tp,
+              "R": reflect, "T": transmit, "A": 1.0 - reflect - transmit,
+              "psi": psi, "delta": delta, "N": n_elem, "C": c_elem, "S": s_elem, "P": polarization,
+              "eps_pseudo": eps}
+    return {key: _full(values[key], shape) for key in KEYS}
+
+
+def _full(value, shape):
+    value = np.asarray(value)
+    if value.shape == shape:
+        return value
+    return np.array(np.broadcast_to(value, shape))
