@@ -146,6 +146,8 @@ def simulate_dataset(stack, wavelength_nm, angle_deg, quantities, noise=None, se
         raise LaminaInputError(f"the optics engine gives no {', '.join(missing)}", "--quantities",
                                "quantities among " + ", ".join(q for q in WRITTEN if q in full.data_vars))
     ds = full[list(quantities)].transpose("angle", "wavelength").copy()
+    # keep the engine's statement of conventions; the rest of its attrs is replaced by our header
+    ds.attrs = {k: v for k, v in full.attrs.items() if k == "conventions"}
     for name in quantities:
         if not np.isfinite(ds[name].values).all():
             raise LaminaInputError(f"{name} is undefined at some points of this grid", "--quantities",
@@ -174,8 +176,9 @@ def add_noise(ds, noise: dict[str, float], seed=None):
 def header(model_path: Path, stack, args, noise) -> tuple[list[str], dict[str, str]]:
     from .. import __version__
 
-    comments = ["SYNTHETIC DATA: computed by 'lamina simulate' from a model, not measured."]
+    comments = ["SYNTHETIC DATA computed by 'lamina simulate' from a model - not a measurement"]
     meta = {
+        "data_kind": "synthetic",
         "generator": f"lamina {__version__} simulate",
         "model_file": str(model_path),
         "model_sha256": hashlib.sha256(model_path.read_bytes()).hexdigest(),

@@ -80,12 +80,13 @@ def read_csv_text(path: str | os.PathLike) -> CsvText:
     header_line = 0
     rows: list[list[str]] = []
     lines: list[int] = []
+    last_key: list[str | None] = [None]
     for number, line in enumerate(text.splitlines(), start=1):
         stripped = line.strip()
         if not stripped:
             continue
         if stripped.startswith("#"):
-            _add_metadata(metadata, stripped[1:].strip())
+            _add_metadata(metadata, stripped[1:], last_key)
             continue
         cells = next(csv.reader([line]))
         if header is None:
@@ -105,10 +106,19 @@ def read_csv_text(path: str | os.PathLike) -> CsvText:
                    np.asarray(lines, dtype=int))
 
 
-def _add_metadata(metadata: dict[str, str], comment: str) -> None:
-    """``key: value`` comments become metadata; other comment text is collected under 'comment'."""
+def _add_metadata(metadata: dict[str, str], raw: str, last_key: list) -> None:
+    """``key: value`` comments become metadata; other comment text is collected under 'comment'.
+
+    A comment indented by two or more spaces continues the previous key's value
+    on a new line (how the writer stores multi-line values).
+    """
+    comment = raw.strip()
     if not comment:
         return
+    if raw.startswith("  ") and last_key[0] is not None:
+        metadata[last_key[0]] = f"{metadata[last_key[0]]}\n{comment}"
+        return
+    last_key[0] = None
     key, sep, value = comment.partition(":")
     key = key.strip()
     if sep and key and len(key) <= 40 and all(ch.isalnum() or ch in "_- ." for ch in key):
@@ -116,6 +126,7 @@ def _add_metadata(metadata: dict[str, str], comment: str) -> None:
         if key in RESERVED_ATTRS:
             key = f"meta_{key}"
         metadata[key] = f"{metadata[key]}\n{value.strip()}" if key in metadata else value.strip()
+        last_key[0] = key
     else:
         metadata["comment"] = f"{metadata['comment']}\n{comment}" if "comment" in metadata else comment
 

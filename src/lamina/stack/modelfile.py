@@ -36,7 +36,7 @@ MODEL_DIR_KEY = "_model_dir"
 
 #: media a model file may name without the material library (so that a model
 #: with inline laws works even where the library is unavailable)
-_BUILTIN_MEDIA = {"air": "n = 1 (vacuum; air differs by ~3e-4)", "vacuum": "n = 1"}
+_BUILTIN_MEDIA = {"air": "n = 1 (vacuum; air differs by ~3e-4)", "vacuum": "n = 1", "void": "n = 1 (empty space)"}
 
 
 # ---------------------------------------------------------------------------
