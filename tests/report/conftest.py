@@ -80,22 +80,27 @@ def fit_dir(tmp_path) -> Path:
 
 
 def map_summary() -> dict:
+    """The shape lamina map writes (qa.maps.summarize plus inputs and exit_code)."""
     stats = {"mean": 149.12, "std": 0.84, "min": 147.6, "max": 151.9, "range": 4.3,
              "nonuniformity_pct": 1.44, "std_over_mean_pct": 0.56, "n_sites": 7, "unit": "nm"}
     return {
-        "wafers": {
-            "LK-0412-03": {"pass": True, "reasons": [], "n_sites": 7, "n_failed": 0,
-                           "parameters": {"oxide.thickness_nm": stats}},
-            "LK-0412-04": {"pass": False,
-                           "reasons": ["oxide.thickness_nm: 2 sites below lower limit 146.0 nm",
-                                       "oxide.thickness_nm: non-uniformity 2.9 % above 2.0 %"],
-                           "n_sites": 7, "n_failed": 1,
-                           "parameters": {"oxide.thickness_nm": dict(stats, mean=147.3, nonuniformity_pct=2.9)}},
-        },
-        "failed_sites": 1,
+        "n_sites": 14, "n_fitted": 13, "n_failed": 1, "n_wafers": 2,
+        "geometry": {"diameter_mm": 150.0, "edge_exclusion_mm": 5.0},
+        "spec": {"path": "oxide_spec.toml", "limits": {"oxide.thickness_nm": {"lower": 146.0, "upper": 152.0}},
+                 "uniformity": {"oxide.thickness_nm": 2.0}},
         "pass": False,
-        "provenance": {"lamina": "0.1.0", "data_sha256": {"lot0412_map.csv": "ab" * 32},
-                       "model": "oxide_on_si.toml", "spec": "oxide_spec.toml", "created": "2026-12-01T23:10:00Z"},
+        "wafers": {
+            "LK-0412-03": {"n_sites": 7, "n_in_zone": 7, "n_failed": 0, "n_failed_in_zone": 0, "failed_sites": [],
+                           "parameters": {"oxide.thickness_nm": stats}, "pass": True, "reasons": []},
+            "LK-0412-04": {"n_sites": 7, "n_in_zone": 7, "n_failed": 1, "n_failed_in_zone": 1, "failed_sites": ["7"],
+                           "parameters": {"oxide.thickness_nm": dict(stats, mean=147.3, nonuniformity_pct=2.9)},
+                           "pass": False,
+                           "reasons": ["1 site(s) inside the edge exclusion could not be fitted",
+                                       "oxide.thickness_nm: 1 site(s) below lower limit 146.0 nm",
+                                       "oxide.thickness_nm: non-uniformity 2.9 % above 2.0 %"]},
+        },
+        "inputs": {"map": "lot0412_map.csv", "model": "oxide_on_si.toml", "spec": "oxide_spec.toml"},
+        "exit_code": 3,
     }
 
 
@@ -104,10 +109,10 @@ def map_sites() -> list[dict]:
     for wafer in ("LK-0412-03", "LK-0412-04"):
         for i, (x, y) in enumerate([(0, 0), (30, 0), (-30, 0), (0, 30), (0, -30), (60, 0), (-60, 0)], start=1):
             t = 149.0 + 0.0005 * (x * x + y * y) - (5.5 if wafer.endswith("04") and abs(x) == 60 else 0.0)
-            rows.append({"site": i, "x_mm": x, "y_mm": y, "wafer": wafer, "status": "ok",
-                         "pass": str(146.0 <= t <= 152.0), "reduced_chi2": 1.02,
+            rows.append({"site": i, "x_mm": x, "y_mm": y, "wafer": wafer, "status": "fitted",
+                         "pass": "true" if 146.0 <= t <= 152.0 else "false", "reduced_chi2": 1.02,
                          "oxide.thickness_nm": round(t, 3), "oxide.thickness_nm.stderr": 0.05, "reason": ""})
-    rows[-1].update({"status": "failed", "pass": "False", "reduced_chi2": "", "oxide.thickness_nm": "",
+    rows[-1].update({"status": "failed", "pass": "", "reduced_chi2": "", "oxide.thickness_nm": "",
                      "oxide.thickness_nm.stderr": "", "reason": "non-numeric psi_deg at line 812"})
     return rows
 
@@ -136,8 +141,23 @@ def check_json() -> dict:
                    "bands": [{"name": "visible anti-reflection", "pass": True, "worst_margin": 0.0011, "at_nm": 452.0},
                              {"name": "near-infrared", "pass": True, "worst_margin": 0.004, "at_nm": 900.0}],
                    "color": {"L": 28.1, "a": 0.8, "b": -6.2, "delta_e": 1.9, "max_delta_e": 3.0, "pass": True}},
-        "sensitivity": {"H1.thickness_nm": {"visible anti-reflection": 0.00041, "near-infrared": 0.00012},
-                        "L1.thickness_nm": {"visible anti-reflection": 0.00022, "near-infrared": 0.00009}},
+        "sensitivity": {
+            "method": "central differences, step 0.5 nm, one batched solver call",
+            "tolerance_basis": "thickness tolerance",
+            "layers": {
+                "H1": {"tolerance_nm": 0.15, "criticality": 0.165,
+                       "bands": {"visible anti-reflection": {"max_abs_derivative": 0.0110, "unit": "per nm",
+                                                             "at_nm": 531.0, "shift_at_tolerance": 0.00165,
+                                                             "criticality": 0.165}}},
+                "H2": {"tolerance_nm": 1.1, "criticality": 0.612,
+                       "bands": {"visible anti-reflection": {"max_abs_derivative": 0.00556, "unit": "per nm",
+                                                             "at_nm": 534.0, "shift_at_tolerance": 0.00612,
+                                                             "criticality": 0.612},
+                                 "color": {"max_abs_derivative": 0.29, "unit": "Delta E per nm", "at_nm": None,
+                                           "shift_at_tolerance": 0.32, "criticality": 0.0107}}},
+            },
+            "ranking": ["H2", "H1"],
+        },
         "yield": {"trials": 10000, "pass_fraction": 0.9132, "ci95": [0.9075, 0.9186],
                   "worst_layer": "H2", "min_yield": 0.9, "pass": True},
         "measured": {"pass": False,
@@ -146,7 +166,14 @@ def check_json() -> dict:
                      "drift": {"L1.thickness_nm": {"design": 110.0, "fitted": 110.4, "stderr": 0.3,
                                                    "delta_nm": 0.4, "delta_pct": 0.36},
                                "H2.thickness_nm": {"design": 52.0, "fitted": 54.61, "stderr": 0.21,
-                                                   "delta_nm": 2.61, "delta_pct": 5.02}}},
+                                                   "delta_nm": 2.61, "delta_pct": 5.02}},
+                     "largest": "H2.thickness_nm", "prefit_scale": 1.012,
+                     "fit": {"converged": True, "statistics": {"reduced_chi2": 1.08}, "warnings": []},
+                     "files": ["ar4_part_0412.csv"]},
+        "notes": [],
+        "provenance": {"lamina": "0.1.0", "recipe": "ar4_recipe.toml", "target": "ar4_target.toml",
+                       "sha256": {"ar4_recipe.toml": "c1" * 32, "ar4_target.toml": "d2" * 32},
+                       "created": "2026-12-01T23:20:00+00:00"},
     }
 
 

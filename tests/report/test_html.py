@@ -136,6 +136,7 @@ def test_map_report_gives_verdict_per_wafer_and_failed_sites(map_dir, samples):
     assert html.index("Map fails") < html.index("Statistics, wafer LK-0412-03")
     assert "1 site could not be fitted" in html
     assert "wafer LK-0412-04: oxide.thickness_nm: non-uniformity 2.9 % above 2.0 %" in html
+    assert "lot0412_map.csv" in html and "file not found when the report was built" in html
     assert "non-numeric psi_deg at line 812" in html
     assert "non-uniformity %" in html and ">1.44<" in html
     # conftest.map_sites: the two edge sites of wafer 04 lie 5.5 nm low (145.3 nm < 146 nm); one of
@@ -158,8 +159,13 @@ def test_check_report_bands_yield_and_drift(check_dir):
     # drift: the largest deviation (H2, +2.61 nm) is listed first
     assert html.index("H2.thickness_nm") < html.index("L1.thickness_nm</td><td class=\"num\">110")
     assert "54.61 ± 0.21" in html and "+5.02" in html
-    # sensitivity as a table, colour values
-    assert "0.00041" in html and "delta_e" in html
+    # sensitivity: the most critical layer (first in the ranking) leads the table
+    sens = html[html.index("Thickness sensitivity"):html.index("Tolerance yield")]
+    assert sens.index(">H2<") < sens.index(">H1<")
+    assert "0.00556" in sens and "Delta E per nm" in sens
+    # colour values, drift fit facts, recorded digests
+    assert "delta_e" in html and "common thickness scale (pre-fit)" in html and "1.012" in html
+    assert "c1" * 32 in html and "recorded at run time" in html
 
 
 def test_all_three_jobs_in_one_folder_keep_their_order(tmp_path, samples):

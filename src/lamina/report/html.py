@@ -24,7 +24,6 @@ import datetime as _dt
 import json
 import math
 import os
-import tempfile
 from pathlib import Path
 from typing import Any, Iterable
 
@@ -85,7 +84,7 @@ def build_context(outdir: str | os.PathLike) -> dict:
         "sections": sections,
         "overall": _overall(sections),
         "plots": collect_plots(folder),
-        "texts": collect_texts(folder),
+        "texts": _unique_texts(collect_texts(folder) + [m for s in sections for m in s["provenance"]["models"]]),
         "built_with": __version__,
         "built_at": _now_utc(),
         "caution": CAUTION,
@@ -101,9 +100,8 @@ def render_report(outdir: str | os.PathLike) -> str:
 def write_report(outdir: str | os.PathLike) -> Path:
     """Build ``outdir/report.html`` from the folder's files (atomically); return its path."""
     html = render_report(outdir)
-    target = Path(outdir) / REPORT_NAME
-    _atomic_write_text(target, html)
-    return target
+    from ..data.writers import atomic_write_text  # temporary file in the same folder, then os.replace
+    return atomic_write_text(Path(outdir) / REPORT_NAME, html)
 
 
 # -- reading ------------------------------------------------------------------
@@ -167,8 +165,17 @@ def collect_texts(folder: Path) -> list[dict]:
         except OSError:
             continue
         cut = len(text) > MAX_TEXT_CHARS
-        texts.append({"name": path.name, "text": text[:MAX_TEXT_CHARS], "cut": cut})
+        texts.append({"name": path.name, "text": text[:MAX_TEXT_CHARS], "cut": cut, "note": "in the output folder"})
     return texts
+
+
+def _unique_texts(texts: list[dict]) -> list[dict]:
+    seen, out = set(), []
+    for entry in texts:
+        if entry["name"] not in seen:
+            seen.add(entry["name"])
+            out.append(entry)
+    return out
 
 
 # -- fit ----------------------------------------------------------------------
@@ -198,7 +205,7 @@ def fit_section(result: dict, folder: Path) -> dict:
         "parameters": parameters,
         "statistics": _fit_statistics(stats),
         "correlations": _correlations(_dict(result.get("correlations")), parameters),
-        "provenance": _provenance(_dict(result.get("provenance"))),
+        "provenance": _provenance(result, folder / JOB_FILES["fit"]),
         "extra": _extra(result, {"converged", "message", "statistics", "parameters", "correlations",
                                  "warnings", "provenance"}),
     }
@@ -319,10 +326,10 @@ def map_section(summary: dict, folder: Path) -> dict:
         "sites": [[_cell(r.get(c)) for c in site_columns] for r in rows[:MAX_SITE_ROWS]],
         "sites_cut": max(0, len(rows) - MAX_SITE_ROWS),
         "spec": summary.get("spec"),
-        "provenance": _provenance(_dict(summary.get("provenance"))),
+        "provenance": _provenance(summary, folder / JOB_FILES["map"]),
         "extra": _extra(summary, {"wafers", "pass", "reasons", "warnings", "provenance", "spec", "failed_sites",
                                   "n_failed", "failed", "sites_failed", "n_sites", "sites", "parameters",
-                                  "statistics", "wafer"}),
+                                  "statistics", "wafer", "inputs", "n_fitted", "n_wafers", "exit_code"}),
     }
 
 
@@ -417,7 +424,7 @@ def check_section(check: dict, folder: Path) -> dict:
     return {
         "kind": "check", "title": JOB_TITLES["check"], "source": JOB_FILES["check"],
         "status": status, "headline": headline, "reasons": reasons,
-        "warnings": [str(w) for w in _list(check.get("warnings"))],
+        "warnings": [str(w) for w in _list(check.get("warnings")) + _list(check.get("notes"))],
         "design_bands": _bands(_list(design.get("bands"))),
         "design_pass": design.get("pass"),
         "color": _color_rows(design.get("color")),
@@ -428,8 +435,10 @@ def check_section(check: dict, folder: Path) -> dict:
         "measured_bands": _bands(_list(measured.get("bands"))),
         "measured_color": _color_rows(measured.get("color")),
         "drift": _drift_rows(_dict(measured.get("drift"))),
-        "provenance": _provenance(_dict(check.get("provenance"))),
-        "extra": _extra(check, {"design", "measured", "yield", "sensitivity", "pass", "warnings", "provenance"}),
+        "measured_rows": _measured_rows(measured),
+        "provenance": _provenance(check, folder / JOB_FILES["check"]),
+        "extra": _extra(check, {"design", "measured", "yield", "sensitivity", "pass", "warnings", "notes",
+                                "provenance"}),
     }
 
 
@@ -491,17 +500,57 @@ def _color_rows(raw: Any) -> list[tuple[str, str]]:
 
 
 def _sensitivity(raw: Any) -> dict | None:
-    """A table when the sensitivity is {row: {column: number}}, else generic text."""
+    """Rows (layer, band, slope, where, shift at tolerance, criticality), most critical layer first.
+
+    Shape written by lamina check: {method, tolerance_basis, ranking: [layer...],
+    layers: {layer: {tolerance_nm, criticality, bands: {band: {...}}}}}; anything else
+    is shown as it is.
+    """
     if not raw:
         return None
-    if isinstance(raw, dict) and raw and all(isinstance(v, dict) for v in raw.values()):
-        columns: list[str] = []
-        for value in raw.values():
-            columns += [c for c in value if c not in columns]
-        if all(not isinstance(x, (dict, list)) for v in raw.values() for x in v.values()):
-            rows = [{"name": str(k), "cells": [_plain(v.get(c)) for c in columns]} for k, v in raw.items()]
-            return {"columns": columns, "rows": rows, "generic": None}
-    return {"columns": [], "rows": [], "generic": raw}
+    raw_layers = raw.get("layers") if isinstance(raw, dict) else None
+    if not isinstance(raw_layers, dict) or not all(isinstance(v, dict) for v in raw_layers.values()):
+        return {"rows": [], "notes": [], "generic": raw}
+    ranking = [str(n) for n in _list(raw.get("ranking")) if n in raw_layers]
+    order = ranking + [n for n in raw_layers if n not in ranking]
+    rows = []
+    for name in order:
+        layer = raw_layers[name]
+        bands = _dict(layer.get("bands"))
+        for i, (band, entry) in enumerate(bands.items() or [("—", {})]):
+            entry = _dict(entry)
+            rows.append({
+                "layer": str(name) if i == 0 else "", "rank": order.index(name) + 1 if i == 0 else "",
+                "tolerance": fmt(_float(layer.get("tolerance_nm")), 3) if i == 0 else "",
+                "layer_criticality": fmt(_float(layer.get("criticality")), 3) if i == 0 else "",
+                "band": str(band), "slope": fmt(_float(entry.get("max_abs_derivative")), 3),
+                "unit": str(entry.get("unit") or ""), "at_nm": fmt(_float(entry.get("at_nm")), 5),
+                "shift": fmt(_float(entry.get("shift_at_tolerance")), 3),
+                "criticality": fmt(_float(entry.get("criticality")), 3),
+            })
+    notes = [f"{k.replace('_', ' ')}: {_plain(v)}" for k, v in raw.items() if k not in ("layers", "ranking")]
+    return {"rows": rows, "notes": notes, "generic": None}
+
+
+def _measured_rows(measured: dict) -> list[tuple[str, str]]:
+    """The drift fit's own facts: largest deviation, pre-fit scale, fit status, files."""
+    rows = []
+    if measured.get("largest"):
+        rows.append(("largest deviation", _plain(measured["largest"])))
+    if measured.get("prefit_scale") is not None:
+        rows.append(("common thickness scale (pre-fit)", fmt(_float(measured["prefit_scale"]), 6)))
+    fit = _dict(measured.get("fit"))
+    if fit:
+        stats = _dict(fit.get("statistics"))
+        state = {True: "converged", False: "did not converge"}.get(fit.get("converged"), "unknown")
+        if stats.get("reduced_chi2") is not None:
+            state += f", reduced chi-square {fmt(_float(stats.get('reduced_chi2')), 4)}"
+        rows.append(("drift fit", state))
+        rows += [("drift fit warning", str(w)) for w in _list(fit.get("warnings"))]
+    files = _list(measured.get("files"))
+    if files:
+        rows.append(("measured files", ", ".join(str(f) for f in files)))
+    return rows
 
 
 def _drift_rows(raw: dict) -> list[dict]:
@@ -522,15 +571,63 @@ def _drift_rows(raw: dict) -> list[dict]:
 
 
 # -- shared -------------------------------------------------------------------
-def _provenance(raw: dict) -> dict:
-    files = []
-    for key in ("data_sha256", "inputs", "input_sha256", "files"):
-        value = raw.get(key)
-        if isinstance(value, dict):
-            files += [(str(name), _plain(sha)) for name, sha in value.items()]
-    rows = [(str(k), _plain(v)) for k, v in raw.items()
-            if k not in ("data_sha256", "inputs", "input_sha256", "files")]
-    return {"files": files, "rows": rows}
+#: provenance keys that map input file names to sha256 digests
+_DIGEST_KEYS = ("data_sha256", "sha256", "input_sha256")
+#: provenance / inputs keys that name model files (shown as text when still unchanged)
+_MODEL_KEYS = ("model", "recipe")
+
+
+def _provenance(job: dict, job_file: Path) -> dict:
+    """Version, dates, input files with sha256 (recorded, or computed now when not recorded), models."""
+    raw = dict(_dict(job.get("provenance")))
+    inputs = _dict(job.get("inputs"))
+    recorded: dict[str, str] = {}
+    for key in _DIGEST_KEYS:
+        recorded.update({str(k): str(v) for k, v in _dict(raw.pop(key, None)).items() if v})
+    files = [{"name": name, "sha256": sha, "note": "recorded at run time"} for name, sha in recorded.items()]
+    for key, value in inputs.items():
+        for name in (value if isinstance(value, list) else [value]):
+            if isinstance(name, str) and name and name not in recorded:
+                digest = _sha256_or_none(Path(name))
+                note = "digest computed when the report was built" if digest else "file not found when the report was built"
+                files.append({"name": name, "sha256": digest or "—", "note": f"{key}; {note}"})
+    rows = [(str(k), _plain(v)) for k, v in raw.items() if v not in (None, "", [])]
+    try:
+        written = _dt.datetime.fromtimestamp(job_file.stat().st_mtime, _dt.timezone.utc)
+        rows.append((f"{job_file.name} written", written.strftime("%Y-%m-%d %H:%M:%S UTC")))
+    except OSError:
+        pass
+    models = _model_texts({**inputs, **raw}, recorded)
+    return {"files": files, "rows": rows, "models": models}
+
+
+def _model_texts(fields: dict, recorded: dict[str, str]) -> list[dict]:
+    """Text of the model files the job names, when they still exist and match a recorded digest."""
+    texts = []
+    for key in _MODEL_KEYS:
+        name = fields.get(key)
+        if not isinstance(name, str) or not name.endswith(".toml"):
+            continue
+        path = Path(name)
+        digest = _sha256_or_none(path)
+        if digest is None:
+            continue
+        if name in recorded and recorded[name] != digest:
+            texts.append({"name": name, "text": "", "cut": False,
+                          "note": "the file has changed since the run; not shown"})
+            continue
+        text = path.read_text(encoding="utf-8", errors="replace")
+        texts.append({"name": name, "text": text[:MAX_TEXT_CHARS], "cut": len(text) > MAX_TEXT_CHARS,
+                      "note": "" if name in recorded else "read when the report was built"})
+    return texts
+
+
+def _sha256_or_none(path: Path) -> str | None:
+    import hashlib
+    try:
+        return hashlib.sha256(path.read_bytes()).hexdigest() if path.is_file() else None
+    except OSError:
+        return None
 
 
 def _overall(sections: list[dict]) -> str:
@@ -666,16 +763,3 @@ def _environment():
     env.tests["mapping"] = lambda v: isinstance(v, dict)
     env.tests["sequence_value"] = lambda v: isinstance(v, (list, tuple))
     return env
-
-
-def _atomic_write_text(target: Path, text: str) -> None:
-    """Write to a temporary file in the same folder, then rename over the target."""
-    handle, tmp_name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=str(target.parent))
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8") as stream:
-            stream.write(text)
-        os.replace(tmp_name, target)
-    except BaseException:
-        if os.path.exists(tmp_name):
-            os.unlink(tmp_name)
-        raise
