@@ -32,6 +32,12 @@ from __future__ import annotations
 import numpy as np
 
 
+#: total reflectance (R_s + R_p) below which the reflected light counts as none:
+#: amplitudes of 1e-12, far below any measurement, yet 1e4 times the round-off
+#: (~1e-16) of the amplitudes of an index-matched interface.
+DARK_REFLECTANCE = 1e-24
+
+
 def wrap_delta_deg(delta_deg):
     """Delta folded into [0, 360); np.mod alone can return 360.0 for -1e-17."""
     wrapped = np.mod(delta_deg, 360.0)
@@ -56,14 +62,15 @@ def delta_to_tmm(delta_deg):
 def mueller_from_sums(rs2, rp2, cross, cos_2theta):
     """Normalized N, C, S and P from R_s, R_p and X = sum r_s conj(r_p).
 
-    Where nothing at all is reflected (R_s = R_p = 0, e.g. an index-matched
-    ambient), Psi and Delta are undefined; lamina uses the limit of an
-    index-matched interface approached from either side, rho -> -cos 2theta
-    (at normal incidence rho = -1: Psi = 45, Delta = 180), which also makes the
-    pseudo-dielectric function equal to the ambient's.
+    Where nothing is reflected (R_s + R_p below `DARK_REFLECTANCE`, e.g. an
+    index-matched ambient, where the ratio r_p / r_s is pure round-off), Psi and
+    Delta are undefined; lamina uses the limit of an index-matched interface
+    approached from either side, rho -> -cos 2theta (at normal incidence
+    rho = -1: Psi = 45, Delta = 180), which also makes the pseudo-dielectric
+    function equal to the ambient's.
     """
     total = rs2 + rp2
-    dark = total <= 0.0
+    dark = total < DARK_REFLECTANCE
     with np.errstate(divide="ignore", invalid="ignore"):
         n_elem = (rs2 - rp2) / total
         c_elem = 2.0 * cross.real / total
