@@ -144,7 +144,7 @@ BAD_MODELS = {
     "unknown layer key": ("[[layers]]\nname='a'\nthickness_nm=1.0\nmaterial='air'\ncolor='red'\n"
                           "[substrate]\nmaterial='air'\n", "model.toml: layers[1].color", "[[layers]]"),
     "unknown law": ("[substrate]\nmaterial = { law = 'magic' }\n", "model.toml: substrate.material.law", "constant"),
-    "unknown material": ("[substrate]\nmaterial = 'unobtainium'\n", "model.toml: substrate.material", "library name"),
+    "unknown material": ("[substrate]\nmaterial = 'unobtainium'\n", "model.toml: substrate.material", "inline law"),
     "duplicate layer": ("[[layers]]\nname='a'\nthickness_nm=1.0\nmaterial='air'\n"
                         "[[layers]]\nname='a'\nthickness_nm=2.0\nmaterial='air'\n[substrate]\nmaterial='air'\n",
                         "model.toml: layers[2].name", "unique"),

@@ -85,14 +85,20 @@ def library_names() -> list[str]:
 def library_material(name: str, where: str) -> Dispersion:
     """A material of the library by name, with a message listing the names when unknown."""
     lib = _library()
+    library_error: LaminaInputError | None = None
     if lib is not None:
         try:
             return lib.get(name)
-        except (KeyError, LaminaInputError):
+        except LaminaInputError as exc:
+            library_error = exc
+        except KeyError:
             pass
     if name.lower() in _BUILTIN_MEDIA:
         from ..dispersion.constant import Constant
         return Constant(1.0, 0.0, name=name.lower(), source=_BUILTIN_MEDIA[name.lower()])
+    if library_error is not None:  # the library's own message (it suggests close names), placed here
+        expected = f"{library_error.expected}, or an inline law table" if library_error.expected else None
+        raise LaminaInputError(library_error.problem, where, expected, hint=library_error.hint)
     names = library_names()
     shown = ", ".join(names[:40]) + (", ..." if len(names) > 40 else "")
     raise LaminaInputError(f"unknown material '{name}'", where,
