@@ -140,12 +140,11 @@ def summarize(problem, best: LocalOutcome, stack, samples, max_reduced_chi2, mod
                                   search_info)
     _chi2_warning(reduced, problem.trusted_errors, warnings)
     fitted_stack, fitted_samples = _fitted_stack(stack, samples, parameters)
-    model_sets, points = _model_outputs(problem, x, residuals)
     return FitResult(
         success=converged, message=message, stack=fitted_stack, parameters=parameters,
         correlations=correlation_dict, statistics=statistics, warnings=warnings,
         provenance=_provenance(problem, stack, model_label), residuals=residuals,
-        model_dataset=model_sets[0] if len(model_sets) == 1 else model_sets, points=points,
+        outputs_factory=lambda: _model_outputs(problem, x, residuals),
         free_names=list(table.free), covariance=cov, samples=fitted_samples,
         n_evaluations=problem.n_evaluations, materials=_fitted_materials(problem, fitted_stack, fitted_samples),
     )

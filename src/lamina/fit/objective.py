@@ -156,6 +156,13 @@ class Block:
         return diff
 
 
+def _grid(array) -> np.ndarray:
+    """(angle, wavelength) float array of a DataArray (transposed only when needed)."""
+    if array.dims != ("angle", "wavelength"):
+        array = array.transpose("angle", "wavelength")
+    return np.asarray(array.values, dtype=float)
+
+
 def make_block(sample: str, dataset, stack, label: str | None = None) -> Block:
     """A block from an xarray Dataset with dims (angle, wavelength)."""
     label = label or str(dataset.attrs.get("source_file", sample or "data"))
@@ -163,7 +170,7 @@ def make_block(sample: str, dataset, stack, label: str | None = None) -> Block:
         if dim not in dataset.dims:
             raise LaminaInputError(f"dataset has no '{dim}' dimension", label, "dims (angle, wavelength)")
     quantities = [q for q in QUANTITIES if q in dataset.data_vars]
-    grids = {q: dataset[q].transpose("angle", "wavelength").values.astype(float) for q in quantities}
+    grids = {q: _grid(dataset[q]) for q in quantities}
     measured = {q: np.isfinite(g) for q, g in grids.items()}
     quantities = [q for q in quantities if measured[q].any()]
     if not quantities:
@@ -182,7 +189,7 @@ def make_block(sample: str, dataset, stack, label: str | None = None) -> Block:
         data.append(grid[ai, wi])
         err_name = f"{q}_err"
         if err_name in dataset.data_vars:
-            err = dataset[err_name].transpose("angle", "wavelength").values.astype(float)
+            err = _grid(dataset[err_name])
             err = err[np.ix_(keep_angle, keep_wl)][ai, wi]
             bad = np.isfinite(err) & (err <= 0)
             if bad.any():

@@ -32,10 +32,8 @@ class FitResult:
     provenance: dict
     #: weighted residuals (model - data) / sigma of every point, in the order of `points`
     residuals: np.ndarray
-    #: model on the grid of each dataset (one Dataset, or a list for several datasets)
-    model_dataset: object
-    #: per-point table (pandas DataFrame): sample, angle_deg, wavelength_nm, quantity, data, model, residual, sigma
-    points: object = None
+    #: builds (model datasets, points table) on first use: fits run in bulk (wafer maps) skip it
+    outputs_factory: object = None
     #: free parameter names (order of `covariance`) and their covariance matrix
     free_names: list = field(default_factory=list)
     covariance: np.ndarray | None = None
@@ -49,6 +47,22 @@ class FitResult:
     @property
     def converged(self) -> bool:
         return self.success
+
+    def _outputs(self):
+        if getattr(self, "_cached_outputs", None) is None:
+            self._cached_outputs = self.outputs_factory()
+        return self._cached_outputs
+
+    @property
+    def model_dataset(self):
+        """Model on the grid of each dataset: one xarray Dataset, or a list (one per dataset, fit order)."""
+        sets = self._outputs()[0]
+        return sets[0] if len(sets) == 1 else sets
+
+    @property
+    def points(self):
+        """Per-point pandas DataFrame: sample, angle_deg, wavelength_nm, quantity, data, model, residual, sigma."""
+        return self._outputs()[1]
 
     def value(self, name: str) -> float:
         return self.parameters[name]["value"]
