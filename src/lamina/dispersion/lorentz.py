@@ -31,7 +31,6 @@ import math
 from typing import Mapping, Sequence
 
 import numpy as np
-from scipy import constants
 
 from ..parameters import ParamSpec
 from .base import (Dispersion, check_keys, coerce_params, list_to_toml, list_values, read_param_list,
@@ -93,6 +92,7 @@ def oscillator_susceptibility_si(number_density_m3, charge_c, mass_kg, resonance
     oscillator with A = N q^2 / (eps0 m omega_0^2), E_0 = hbar omega_0 and
     Gamma = hbar gamma.
     """
+    from scipy import constants  # imported here: scipy.constants is slow to import
     plasma_sq = np.asarray(number_density_m3, dtype=float) * np.asarray(charge_c, dtype=float) ** 2 / (
         constants.epsilon_0 * np.asarray(mass_kg, dtype=float))
     omega = np.asarray(angular_frequency_rad_s, dtype=float)
