@@ -88,6 +88,8 @@ def run(args) -> int:
     atomic_write_text(outdir / "check.json", json.dumps(_json_ready(report), indent=2) + "\n")
     from ..report.plots_check import plot_check
     plot_check(plot_data, outdir)
+    from ..report.html import write_report
+    write_report(outdir)
     if not args.quiet:
         _print_summary(report)
     return 0 if report["pass"] else 1

@@ -70,6 +70,8 @@ def run(args) -> int:
     result = fit(stack, data, global_search=args.global_search, samples=samples,
                  model_label=str(args.model))
     write_outputs(result, outdir, model_path=args.model)
+    from ..report.html import write_report
+    write_report(outdir)
     if not args.quiet:
         print(result.summary_table())
         print(f"outputs in {outdir}{os.sep}")

@@ -82,6 +82,8 @@ def run(args) -> int:
                          "spec": str(args.spec) if args.spec else None}
     summary["exit_code"] = maps.exit_code(summary)
     write_outputs(outdir, results, summary, free, units, geometry, spec)
+    from ..report.html import write_report
+    write_report(outdir)
     if not args.quiet:
         _print_summary(summary, free, outdir)
     return summary["exit_code"]

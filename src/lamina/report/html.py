@@ -618,7 +618,9 @@ def _model_texts(fields: dict, recorded: dict[str, str]) -> list[dict]:
             continue
         text = path.read_text(encoding="utf-8", errors="replace")
         texts.append({"name": name, "text": text[:MAX_TEXT_CHARS], "cut": len(text) > MAX_TEXT_CHARS,
-                      "note": "" if name in recorded else "read when the report was built"})
+                      "note": f"named by the {key} entry of the provenance" if name in recorded else
+                      f"named by the {key} entry of the provenance; read from {path.resolve()} when the report "
+                      "was built (no digest was recorded, so it may differ from the file the run used)"})
     return texts
 
 
