@@ -71,7 +71,7 @@ def _chi2(simulated, data, quantities) -> np.ndarray:
 
 def prefit_scale(stack, data) -> float:
     """Common thickness scale that best matches the data (grid scan, then bounded refinement)."""
-    from ..optics import simulate
+    from ..optics.simulate import simulate
 
     quantities = _measured_quantities(data)
     wavelength = np.asarray(data["wavelength"].values, dtype=float)

@@ -461,7 +461,8 @@ class RecipeEvaluator:
                     scale = index_scale[:, j]
                     if np.any(scale != 1.0):
                         n_media[j + 1] = n_media[j + 1][None, :] * scale[:, None]
-            result = solve(n_media, thickness, coherent, group["grid"], np.array([group["angle"]]))
+            result = solve(n_media, thickness, coherent, group["grid"], np.array([group["angle"]]),
+                           pseudo_dielectric=False)  # <eps> is not needed here; skip its extra pass
             for request in group["members"]:
                 values = np.asarray(_pick(result, request.quantity, request.polarization))
                 values = values.reshape(batch, -1)  # (B, 1, W) -> (B, W)

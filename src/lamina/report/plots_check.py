@@ -35,7 +35,9 @@ def _y_limits(panel) -> tuple[float, float]:
     if panel["envelope"] is not None:
         series += [panel["envelope"][0], panel["envelope"][1]]
     if panel["measured"] is not None:
-        series.append(panel["measured"][1])
+        wl = panel["wavelength_nm"]
+        inside = (panel["measured"][0] >= wl[0]) & (panel["measured"][0] <= wl[-1])
+        series.append(panel["measured"][1][inside])
     for band in panel["bands"]:
         series += [np.array([v]) for v in (band.min, band.max) if v is not None]
     values = np.concatenate([np.ravel(s) for s in series])
