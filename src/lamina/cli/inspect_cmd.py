@@ -49,7 +49,8 @@ def inspect_model(path: Path) -> list[str]:
         if material.valid_range_nm is not None:
             detail.append(f"valid {material.valid_range_nm[0]:g}-{material.valid_range_nm[1]:g} nm")
         if material.source:
-            detail.append(material.source)
+            source = material.source
+            detail.append(source if len(source) <= 90 else source[:87].rstrip() + "...")
         lines.append(f"  {owner:<10s} {label}" + (f"  ({'; '.join(detail)})" if detail else ""))
     params = stack.parameters()
     free = {k: p for k, p in params.items() if p.is_free}
