@@ -21,6 +21,7 @@ from .tabulated import Table
 from .ema import Bruggeman, MaxwellGarnett
 from .tauc_lorentz import TaucLorentz
 from .gaussian import Gaussian
+from .cody_lorentz import CodyLorentz
 
 LAWS: dict[str, type[Dispersion]] = {}
 
@@ -41,6 +42,7 @@ register(Bruggeman)
 register(MaxwellGarnett)
 register(TaucLorentz)
 register(Gaussian)
+register(CodyLorentz)
 
 
 def from_toml(table: Mapping, where: str, resolve: Resolver | None = None) -> Dispersion:
