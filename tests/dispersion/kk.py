@@ -3,8 +3,8 @@
     eps1(E) - eps_inf = (2 / pi) P int_0^inf E' eps2(E') / (E'^2 - E^2) dE'
 
 (the Kramers-Kronig relation for a causal response with exp(-i omega t);
-F. Wooten, Optical Properties of Solids, 1972, sec. 6.2; M. Dressel and
-G. Gruner, Electrodynamics of Solids, 2002, sec. 3.2.)
+F. Wooten, Optical Properties of Solids, 1972; M. Dressel and
+G. Gruner, Electrodynamics of Solids, 2002)
 
 Used to check that a law's closed-form eps1 is the causal partner of its eps2.
 The principal value is taken by QUADPACK's Cauchy-weighted rule (scipy.integrate.quad

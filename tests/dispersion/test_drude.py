@@ -17,7 +17,7 @@ _spec.loader.exec_module(kk)
 
 
 def test_kramers_kronig_consistency():
-    # eps1 - eps_inf = (2/pi) P int E' eps2 / (E'^2 - E^2) dE' (Wooten 1972, sec. 6.2)
+    # eps1 - eps_inf = (2/pi) P int E' eps2 / (E'^2 - E^2) dE' (Wooten 1972)
     law = Drude(1.5, 8.0, 0.3)
     energy = np.linspace(0.5, 8.0, 20)
     numeric = kk.kk_eps1_minus_background(lambda e: law.epsilon_ev(e).imag, energy)
@@ -25,7 +25,7 @@ def test_kramers_kronig_consistency():
 
 
 def test_f_sum_rule():
-    # int_0^inf E eps2(E) dE = (pi/2) Ep^2 (Wooten 1972, sec. 6.5, free-electron sum rule)
+    # int_0^inf E eps2(E) dE = (pi/2) Ep^2 (Wooten 1972, free-electron sum rule)
     law = Drude(1.0, 5.0, 0.4)
     integral, _ = quad(lambda e: e * law.epsilon_ev(np.array([max(e, 1e-12)]))[0].imag, 0, np.inf, limit=400)
     assert integral == pytest.approx(math.pi / 2 * 25.0, rel=1e-6)
@@ -33,7 +33,7 @@ def test_f_sum_rule():
 
 def test_undamped_limit_and_screened_plasma_edge():
     # Gamma -> 0: eps = eps_inf - Ep^2 / E^2, zero at the screened plasma energy Ep / sqrt(eps_inf)
-    # (Fox, Optical Properties of Solids, 2010, ch. 7)
+    # (Fox, Optical Properties of Solids, 2010)
     law = Drude(4.0, 2.0, 1e-9)
     assert law.epsilon_ev(np.array([1.0]))[0].real == pytest.approx(4.0 - 4.0, abs=1e-6)
     assert law.epsilon_ev(np.array([0.5]))[0].real == pytest.approx(4.0 - 16.0, abs=1e-6)

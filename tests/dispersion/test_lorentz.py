@@ -27,7 +27,7 @@ def make_law():
 
 def test_f_sum_rule():
     # f-sum rule: int_0^inf E eps2(E) dE = (pi/2) sum_j A_j E_j^2
-    # (F. Wooten, Optical Properties of Solids, 1972, sec. 6.5; Dressel and Gruner 2002, sec. 3.2.3)
+    # (F. Wooten, Optical Properties of Solids, 1972; Dressel and Gruner 2002)
     law = make_law()
     integral, _ = quad(lambda e: e * law.epsilon_ev(np.array([e]))[0].imag, 0, np.inf, limit=500,
                        points=None)
@@ -37,7 +37,7 @@ def test_f_sum_rule():
 
 def test_static_and_high_energy_limits():
     # eps(0) = eps_inf + sum A_j; eps -> eps_inf far above all resonances
-    # (Fox, Optical Properties of Solids, 2010, ch. 2: static and high-frequency limits)
+    # (Fox, Optical Properties of Solids, 2010: static and high-frequency limits)
     law = make_law()
     assert law.epsilon_ev(np.array([0.0]))[0] == pytest.approx(1.8 + 1.2 + 0.6, abs=1e-12)
     far = law.epsilon_ev(np.array([1e5]))[0]
@@ -47,7 +47,7 @@ def test_static_and_high_energy_limits():
 
 def test_normal_and_anomalous_dispersion_and_absorption_peak():
     # Below a resonance n rises with photon energy (normal dispersion); across it n falls
-    # (anomalous dispersion) while k peaks near E0 (Fox 2010, ch. 2; Born and Wolf 1999, sec. 2.3.4)
+    # (anomalous dispersion) while k peaks near E0 (Fox 2010; Born and Wolf 1999)
     law = Lorentz(1.0, [{"amplitude": 1.0, "center_ev": 3.0, "broadening_ev": 0.1}])
     energy = np.linspace(0.5, 6.0, 5501)
     nk = np.sqrt(law.epsilon_ev(energy))
@@ -63,7 +63,7 @@ def test_normal_and_anomalous_dispersion_and_absorption_peak():
 
 def test_kramers_kronig_consistency():
     # eps1 - eps_inf = (2/pi) P int E' eps2(E') / (E'^2 - E^2) dE'
-    # (Kramers-Kronig; Wooten 1972, sec. 6.2); numerical integral vs closed form
+    # (Kramers-Kronig; Wooten 1972); numerical integral vs closed form
     law = make_law()
     energy = np.linspace(0.3, 8.0, 25)
     numeric = kk.kk_eps1_minus_background(lambda e: law.epsilon_ev(e).imag, energy)
@@ -84,7 +84,7 @@ def test_pure_function_matches_class_and_batches():
 
 def test_plasma_frequency_of_free_electrons():
     # omega_p^2 = N e^2 / (eps0 m): plasma frequency f_p ~ 8.98 sqrt(N [m^-3]) Hz
-    # (F. F. Chen, Introduction to Plasma Physics, 1984, eq. 4.26: f_p ~ 9 sqrt(n) Hz)
+    # (F. F. Chen, Introduction to Plasma Physics, 1984: f_p ~ 9 sqrt(n) Hz; 8.98 from memory)
     density = 1.0e18
     chi = oscillator_susceptibility_si(density, constants.e, constants.m_e, 0.0, 0.0, 1.0)
     f_p = math.sqrt(-chi.real) / (2 * math.pi)
@@ -92,7 +92,7 @@ def test_plasma_frequency_of_free_electrons():
 
 
 def test_si_susceptibility_equals_photon_energy_form():
-    # The SI oscillator (Jackson 1999, sec. 7.5) is a Lorentz term with A = w_p^2 / w0^2,
+    # The SI oscillator (Jackson 1999) is a Lorentz term with A = w_p^2 / w0^2,
     # E0 = hbar w0, Gamma = hbar gamma (unit conversion, common practice)
     hbar_ev = constants.hbar / constants.e
     density, w0, gamma = 2.5e25, 2.0e16, 3.0e14

@@ -35,7 +35,7 @@ def test_names_mirror_the_model_file():
 
 
 def test_kramers_kronig_consistency():
-    # sum of causal susceptibilities is causal (linearity of the KK transform; Wooten 1972, sec. 6.2)
+    # sum of causal susceptibilities is causal (linearity of the KK transform; Wooten 1972)
     law = from_toml(TABLE, "ito.material")
     energy = np.linspace(0.3, 7.0, 20)
     numeric = kk.kk_eps1_minus_background(lambda e: law.epsilon_ev(e).imag, energy)

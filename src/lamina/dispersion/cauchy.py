@@ -4,7 +4,7 @@
     k(E)      = k_amplitude * exp((E - edge_ev) / urbach_ev)
 
 The index is Cauchy's series (A. L. Cauchy 1836; F. A. Jenkins and H. E. White,
-Fundamentals of Optics, 4th ed. 1976, sec. 23.5); the tail is Urbach's
+Fundamentals of Optics, 4th ed. 1976); the tail is Urbach's
 exponential absorption edge (F. Urbach, Phys. Rev. 92, 1324 (1953)) written for
 k: k equals `k_amplitude` at the photon energy `edge_ev` and falls by a factor e
 for every `urbach_ev` below it.  The tail is off by default (k_amplitude = 0).

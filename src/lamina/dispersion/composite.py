@@ -8,7 +8,7 @@ contributes its epsilon minus its own background, so a term carries no
 ``eps_inf`` of its own: the one background is the ``sum``'s.  Because
 susceptibilities of causal laws are causal, a sum of Kramers-Kronig consistent
 terms is Kramers-Kronig consistent (linearity of the transform; Dressel and
-Gruner, Electrodynamics of Solids, 2002, sec. 3.2).  Typical use: a transparent
+Gruner, Electrodynamics of Solids, 2002).  Typical use: a transparent
 conductor as Drude (free carriers) plus Lorentz (interband).
 
 Model file (local names ``eps_inf``, ``terms.1.plasma_ev``,

@@ -6,7 +6,7 @@ A Lorentz oscillator with no restoring force (resonance at E = 0):
 
 Ep is the unscreened plasma energy (hbar omega_p, omega_p^2 = N e^2 / (eps0 m*)),
 Gamma = hbar / tau the scattering rate (P. Drude 1900; M. Dressel and G. Gruner,
-Electrodynamics of Solids, 2002, eq. 5.1.11; Fox 2010, eq. 7.14).  With
+Electrodynamics of Solids, 2002; Fox 2010).  With
 exp(-i omega t): eps2 = Ep^2 Gamma / (E (E^2 + Gamma^2)) >= 0.  Causal
 (Kramers-Kronig consistent); diverges as E -> 0 (the DC conductivity).
 
@@ -29,7 +29,7 @@ from .lorentz import EPS_INF_SPEC
 
 
 def drude_susceptibility(photon_energy_ev, plasma_ev, broadening_ev):
-    """-Ep^2 / (E^2 + i Gamma E) (Dressel and Gruner 2002, eq. 5.1.11, in photon energy)."""
+    """-Ep^2 / (E^2 + i Gamma E) (Dressel and Gruner 2002, in photon energy)."""
     energy = np.asarray(photon_energy_ev, dtype=float)
     return -np.asarray(plasma_ev, dtype=float) ** 2 / (energy ** 2 + 1j * np.asarray(broadening_ev) * energy)
 

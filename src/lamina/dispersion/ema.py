@@ -75,7 +75,7 @@ def _pick_physical_root(roots, linear_mean):
 
 
 def bruggeman_two(eps_a, eps_b, fraction_a):
-    """Bruggeman eps of two components, closed form (Aspnes 1982, eq. for two phases).
+    """Bruggeman eps of two components, closed form (Aspnes 1982).
 
     2 eps^2 - b eps - eps_a eps_b = 0, b = (3 f_a - 1) eps_a + (3 f_b - 1) eps_b,
     eps = (b +- sqrt(b^2 + 8 eps_a eps_b)) / 4, physical root as in the module doc.

@@ -2,8 +2,8 @@
 
 A bound charge in a harmonic well (resonance E_j), damped (width Gamma_j) and
 driven by the light's field, gives each oscillator a susceptibility; in photon
-energy units (M. Fox, Optical Properties of Solids, 2nd ed. 2010, sec. 2.2;
-F. Wooten, Optical Properties of Solids, 1972, sec. 3.2):
+energy units (M. Fox, Optical Properties of Solids, 2nd ed. 2010;
+F. Wooten, Optical Properties of Solids, 1972):
 
     eps(E) = eps_inf + sum_j A_j E_j^2 / (E_j^2 - E^2 - i Gamma_j E)
 
@@ -50,8 +50,8 @@ OSCILLATOR_SPECS = {
 def lorentz_oscillator(photon_energy_ev, amplitude, center_ev, broadening_ev):
     """Susceptibility of one oscillator: A E0^2 / (E0^2 - E^2 - i Gamma E).
 
-    Source: Fox 2010, Optical Properties of Solids, eq. 2.16-2.17 (written in
-    photon energy, E = hbar omega); Wooten 1972, eq. 3.9.  Parameters may be floats
+    Source: Fox 2010, Optical Properties of Solids (written in
+    photon energy, E = hbar omega); Wooten 1972.  Parameters may be floats
     or (B, 1) arrays against energies of shape (W,).
     """
     energy = np.asarray(photon_energy_ev, dtype=float)
@@ -86,7 +86,7 @@ def oscillator_susceptibility_si(number_density_m3, charge_c, mass_kg, resonance
 
         chi = N q^2 / (eps0 m) * 1 / (omega_0^2 - omega^2 - i gamma omega)
 
-    (J. D. Jackson, Classical Electrodynamics, 3rd ed. 1999, sec. 7.5, eq. 7.51,
+    (J. D. Jackson, Classical Electrodynamics, 3rd ed. 1999, sec. 7.5, the dispersion model there written
     in SI form).  N q^2 / (eps0 m) is the square of the plasma frequency of the
     charges.  In the photon-energy form of `lorentz_oscillator` this is one
     oscillator with A = N q^2 / (eps0 m omega_0^2), E_0 = hbar omega_0 and

@@ -2,8 +2,8 @@
 
     n^2 = 1 + sum_i B_i lambda^2 / (lambda^2 - C_i)        (lambda in um, C_i in um^2)
 
-(W. Sellmeier 1871; M. Born and E. Wolf, Principles of Optics, 7th ed. 1999,
-sec. 2.3.4).  Each term is a lossless Lorentz oscillator with its resonance at
+(W. Sellmeier 1871; M. Born and E. Wolf, Principles of Optics, 7th ed. 1999).
+Each term is a lossless Lorentz oscillator with its resonance at
 lambda_i = sqrt(C_i); in photon energy B lambda^2 / (lambda^2 - C) =
 B E_i^2 / (E_i^2 - E^2) with E_i = hc / sqrt(C).  No absorption: k = 0 (where
 n^2 < 0, i.e. between a pole and its zero, N is imaginary; keep to the valid
