@@ -234,3 +234,26 @@ def test_inspect_bad_model_in_a_subprocess(tmp_path):
     assert proc.returncode == 2
     assert proc.stderr.startswith("lamina: error: ") and "Traceback" not in proc.stderr
     assert f"{path}: layers[1].thickness_nm" in proc.stderr
+
+
+# -- demo -----------------------------------------------------------------------------------
+
+def test_demo_runs_every_step_and_writes_into_its_folder(tmp_path, capsys):
+    from lamina.cli import demo
+
+    outdir = tmp_path / "tour"
+    code, out, err = run_cli(["demo", "-o", outdir, "--quiet"], capsys)
+    assert code == 0, err
+    for number, step in enumerate(demo.STEPS, start=1):
+        assert f"== {number}. {demo.step_title(step)}" in out
+    assert "invented" in out and "qualified staff" in out
+    simulated = lamina.read_data(outdir / "oxide_simulated.csv")
+    assert simulated.attrs["data_kind"] == "synthetic"
+
+
+def test_demo_refuses_a_file_as_its_folder(tmp_path, capsys):
+    target = tmp_path / "file.txt"
+    target.write_text("keep", encoding="utf-8")
+    code, _, err = run_cli(["demo", "-o", target], capsys)
+    assert code == 2 and "not a folder" in err
+    assert target.read_text(encoding="utf-8") == "keep"

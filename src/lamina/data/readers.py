@@ -121,7 +121,7 @@ def _add_metadata(metadata: dict[str, str], raw: str, last_key: list) -> None:
     last_key[0] = None
     key, sep, value = comment.partition(":")
     key = key.strip()
-    if sep and key and len(key) <= 40 and all(ch.isalnum() or ch in "_- ." for ch in key):
+    if sep and key and len(key) <= 100 and all(ch.isalnum() or ch in "_- ." for ch in key):
         key = key.replace(" ", "_")
         if key in RESERVED_ATTRS:
             key = f"meta_{key}"
