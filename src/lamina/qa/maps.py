@@ -369,7 +369,8 @@ def dask_client(workers: int | None = None, scheduler: str | None = None):
     """A dask.distributed Client: to `scheduler` if given, else on a new LocalCluster.
 
     The local cluster has `workers` single-threaded worker processes (default:
-    one per core) with OMP/BLAS threads set to 1; no dashboard.
+    one per core) with OMP/BLAS threads set to 1; its HTTP port is any free one (":0"),
+    so that several maps can run side by side.
     """
     from distributed import Client, LocalCluster
     if scheduler:
@@ -387,7 +388,7 @@ def dask_client(workers: int | None = None, scheduler: str | None = None):
     previous = {name: os.environ.get(name) for name in WORKER_ENV}
     os.environ.update(WORKER_ENV)  # spawned workers inherit these before numpy loads
     try:
-        with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=None,
+        with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
                           silence_logs=logging.ERROR, env=dict(WORKER_ENV)) as cluster, Client(cluster) as client:
             yield client
     finally:
@@ -396,6 +397,17 @@ def dask_client(workers: int | None = None, scheduler: str | None = None):
                 os.environ.pop(name, None)
             else:
                 os.environ[name] = value
+
+
+def _worker_addresses(client) -> list[str]:
+    try:
+        return list(client.scheduler_info(n_workers=-1)["workers"])
+    except TypeError:  # older distributed: no n_workers argument
+        return list(client.scheduler_info()["workers"])
+
+
+def _warm_up() -> None:
+    import lamina.fit.engine  # noqa: F401  (scipy, lmfit and the solver come with it)
 
 
 def _chunks(indices: list[int], size: int) -> list[list[int]]:
@@ -408,10 +420,7 @@ def choose_chunk_size(n_sites: int, n_workers: int) -> int:
 
 
 def _workers_of(client) -> int:
-    try:
-        return max(1, len(client.scheduler_info(n_workers=-1)["workers"]))
-    except TypeError:  # older distributed: no n_workers argument
-        return max(1, len(client.scheduler_info()["workers"]))
+    return max(1, len(_worker_addresses(client)))
 
 
 def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
@@ -432,7 +441,12 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
     for i in np.flatnonzero(problems != ""):
         outcomes[int(i)] = _failed(int(i), str(problems[i]))
         tick(1)
-    model = client.scatter(stack, broadcast=True)
+    # import the fitting code on every worker now, while the reference site is being read and sent,
+    # so that no worker is cold when its first chunk arrives
+    warm = [client.submit(_warm_up, pure=False, workers=[address], allow_other_workers=False)
+            for address in _worker_addresses(client)]
+    # hash=False: a fresh key per map, never one that an earlier map on the same cluster is releasing
+    model = client.scatter(stack, broadcast=True, hash=False)
 
     # 1. reference site of each wafer, global search
     wafers = dataset["wafer"].values
@@ -450,7 +464,7 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
         outcome["reference"] = True
         outcomes[outcome["index"]] = outcome
         tick(1)
-        seeds[wafer] = client.scatter(seed, broadcast=True) if seed is not None else model
+        seeds[wafer] = client.scatter(seed, broadcast=True, hash=False) if seed is not None else model
 
     # 2. the other sites in chunks, seeded from their wafer's reference
     size = chunk_size or choose_chunk_size(n_sites, _workers_of(client))
@@ -475,6 +489,7 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
                     better["reduced_chi2"] < outcomes[i]["reduced_chi2"]:
                 outcomes[i] = better
             outcomes[i]["refit"] = True
+    del warm  # held until here so that the warm-up tasks are not cancelled early
     for outcome in outcomes:
         outcome.setdefault("reference", False)
         outcome.setdefault("refit", False)
