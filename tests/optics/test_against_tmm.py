@@ -144,3 +144,19 @@ def test_batch_matches_tmm():
 def _angle_diff(a, b):
     d = abs(a - b) % 360.0
     return min(d, 360.0 - d)
+
+
+def test_opaque_coherent_layers_match_tmm_and_stay_finite():
+    # |Im(delta)| is capped at 35 as in tmm's coh_tmm (Byrnes 2016, the "opacity" reset):
+    # a 1 um metal-like film (Im delta ~ 41-87) and a 50 um silicon-like coherent layer
+    wl = np.array([400.0, 800.0])
+    for n_film, d in ((0.2 + 3.3j, 1000.0), (3.9 + 0.02j, 50000.0)):
+        n = [np.ones(2, complex), np.full(2, n_film), np.full(2, 1.5 + 0j)]
+        out = solve(n, [d], [True], wl, [0.0, 70.0])
+        assert all(np.all(np.isfinite(v)) for v in out.values())
+        for a, angle in enumerate((0.0, 70.0)):
+            for w, lam in enumerate(wl):
+                for pol in ("s", "p"):
+                    ref = tmm.coh_tmm(pol, [1.0, n_film, 1.5], [np.inf, d, np.inf], np.radians(angle), lam)
+                    np.testing.assert_allclose(out["r" + pol][a, w], ref["r"], atol=1e-10)
+                    np.testing.assert_allclose(out["T" + pol][a, w], ref["T"], atol=1e-9)

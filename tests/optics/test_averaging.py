@@ -26,7 +26,7 @@ def test_zero_settings_give_exactly_the_unaveraged_result():
 
 
 def test_gauss_hermite_rule_matches_a_dense_gaussian_average():
-    # Gauss-Hermite quadrature of a smooth integrand (Abramowitz and Stegun 25.4.46) against a
+    # Gauss-Hermite quadrature of a smooth integrand (Abramowitz and Stegun 1964, ch. 25) against a
     # brute-force trapezoid average over 4001 thickness samples (common practice)
     n_at, d, c, _ = oxide_on_si(300.0)
     wl, ang, sigma_pct = np.array([500.0, 633.0]), 70.0, 1.0
@@ -44,7 +44,7 @@ def test_gauss_hermite_rule_matches_a_dense_gaussian_average():
 
 
 def test_nonuniformity_lowers_the_degree_of_polarization():
-    # averaging Mueller matrices of different thicknesses depolarizes (Fujiwara 2007, sec. 5.4)
+    # averaging Mueller matrices of different thicknesses depolarizes (Fujiwara 2007; from memory)
     n_at, d, c, _ = oxide_on_si(400.0)
     wl = np.linspace(400, 800, 41)
     p_values = [averaged_solve(n_at, d, c, wl, 70.0, Instrument(thickness_nonuniformity_pct=s))["P"]

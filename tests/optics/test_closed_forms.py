@@ -12,7 +12,7 @@ def bare(n_sub, angle_deg, wavelength=632.8, n_amb=1.0):
 
 
 def test_single_interface_fresnel_equations():
-    # Born and Wolf, Principles of Optics (7th ed. 1999), sec. 1.5.2, eqs. (20)-(21),
+    # Fresnel formulae, Born and Wolf, Principles of Optics (7th ed. 1999), ch. 1 (section from memory),
     # with r_p in the tmm sign convention (r_p = -r_s at normal incidence)
     n1, n2 = 1.0, 1.7
     angles = np.linspace(0, 85, 18)
@@ -33,7 +33,7 @@ def test_single_interface_fresnel_equations():
 
 
 def test_brewster_angle_of_glass():
-    # tan(theta_B) = n2/n1 (Born and Wolf sec. 1.5.3): 56.31 deg for n = 1.5; R_p = 0 there
+    # tan(theta_B) = n2/n1 (Brewster's law; Born and Wolf 1999, ch. 1): 56.31 deg for n = 1.5; R_p = 0 there
     theta_b = np.degrees(np.arctan(1.5))
     assert theta_b == pytest.approx(56.31, abs=0.005)
     out = bare(1.5, [theta_b - 1, theta_b, theta_b + 1])
@@ -63,7 +63,7 @@ def test_delta_convention_transparent_substrate():
 
 
 def test_quarter_wave_antireflection_coating():
-    # Macleod, Thin-Film Optical Filters (4th ed. 2010), sec. 4.1: single quarter-wave
+    # Macleod, Thin-Film Optical Filters (4th ed. 2010), antireflection chapter: single quarter-wave
     # layer, R = ((n0 ns - n1^2) / (n0 ns + n1^2))^2; MgF2 (1.38) on crown glass (1.52)
     design = 550.0
     out = solve([1.0, 1.38, 1.52], [design / (4 * 1.38)], [True], design, 0.0)
@@ -74,7 +74,7 @@ def test_quarter_wave_antireflection_coating():
 
 @pytest.mark.parametrize("pairs", [1, 3, 6])
 def test_quarter_wave_mirror_peak_reflectance(pairs):
-    # Macleod (2010) sec. 6.1: (HL)^N H on substrate ns in air, at the design wavelength
+    # Macleod (2010), quarter-wave stack reflectors: (HL)^N H on substrate ns in air, at the design wavelength
     # Y = (nH/nL)^(2N) nH^2 / ns and R = ((1 - Y) / (1 + Y))^2
     n_h, n_l, n_s, design = 2.35, 1.46, 1.52, 600.0
     n = [1.0] + [n_h, n_l] * pairs + [n_h] + [n_s]
@@ -86,7 +86,7 @@ def test_quarter_wave_mirror_peak_reflectance(pairs):
 
 def test_energy_balance_and_lossless_absorptance():
     # R + T + A = 1 by definition; for lossless media A = 0 (energy conservation,
-    # Born and Wolf sec. 1.5.3), coherent and incoherent, any angle
+    # Born and Wolf 1999, ch. 1), coherent and incoherent, any angle
     rng = np.random.default_rng(7)
     wl = np.linspace(300, 1000, 15)
     angles = np.linspace(0, 85, 9)
@@ -106,7 +106,7 @@ def test_energy_balance_and_lossless_absorptance():
 
 def test_transparent_film_period_in_thickness():
     # a transparent film's response repeats when its thickness grows by
-    # lambda / (2 sqrt(n^2 - sin^2 theta)) (phase thickness + pi; Azzam and Bashara 1977, sec. 4.3)
+    # lambda / (2 sqrt(n^2 - sin^2 theta)) (phase thickness + pi; common practice)
     n_film, wl, angle = 1.46, 632.8, 70.0
     period = wl / (2 * np.sqrt(n_film**2 - np.sin(np.radians(angle)) ** 2))
     d = np.array([37.0, 37.0 + period, 37.0 + 3 * period])
@@ -119,7 +119,7 @@ def test_transparent_film_period_in_thickness():
 
 @pytest.mark.parametrize("n_sub", [1.5, 3.882 + 0.019j, 0.2 + 3.3j, 1.2 + 7.0j])
 def test_pseudo_dielectric_function_of_bare_substrate(n_sub):
-    # two-phase model: <eps> equals the substrate's eps (Azzam and Bashara 1977, sec. 4.3)
+    # two-phase model: <eps> equals the substrate's eps (Azzam and Bashara 1977)
     angles = np.array([0.0, 20.0, 45.0, 65.0, 75.0, 85.0])
     out = bare(n_sub, angles)
     eps = complex(n_sub) ** 2
@@ -168,7 +168,7 @@ def test_index_matched_ambient_reflects_nothing_and_stays_finite():
 
 
 def test_mueller_elements_of_coherent_stack():
-    # N = cos 2Psi, C = sin 2Psi cos Delta, S = sin 2Psi sin Delta, P = 1 (Fujiwara 2007, sec. 3.4)
+    # N = cos 2Psi, C = sin 2Psi cos Delta, S = sin 2Psi sin Delta, P = 1 (Fujiwara 2007; section from memory)
     out = solve([1.0, 2.0 + 0.1j, 3.88 + 0.02j], [60.0], [True], np.linspace(300, 900, 7), [50.0, 70.0])
     psi, delta = np.radians(out["psi"]), np.radians(out["delta"])
     np.testing.assert_allclose(out["N"], np.cos(2 * psi), atol=1e-13)

@@ -1,8 +1,8 @@
 """Thick incoherent slabs: intensity sums and the depolarizing Mueller sum.
 
 References: the incoherent multiple-reflection sum of Katsidis and Siapkas,
-Appl. Opt. 41, 3978 (2002), eqs. (9)-(12); Macleod, Thin-Film Optical Filters
-(4th ed. 2010), sec. 2.6 (thick slab R and T); amplitudes from the tmm package
+Appl. Opt. 41, 3978 (2002); Macleod, Thin-Film Optical Filters (4th ed. 2010),
+thick slab R and T (section from memory); amplitudes from the tmm package
 (Byrnes, arXiv:1603.02720).
 """
 import numpy as np
@@ -13,7 +13,7 @@ from lamina.optics import delta_from_tmm, solve
 
 
 def test_transparent_slab_at_normal_incidence():
-    # lossless slab: R = 2 R1 / (1 + R1), T = (1 - R1) / (1 + R1) (Macleod 2010, sec. 2.6)
+    # lossless slab: R = 2 R1 / (1 + R1), T = (1 - R1) / (1 + R1) (Macleod 2010)
     n = 1.52
     r1 = ((n - 1) / (n + 1)) ** 2
     out = solve([1.0, n, 1.0], [1e6], [False], [400.0, 700.0], 0.0)
@@ -23,7 +23,7 @@ def test_transparent_slab_at_normal_incidence():
 
 def test_absorbing_slab_at_normal_incidence():
     # R = R1 + T1^2 R1 P^2 / (1 - R1^2 P^2), T = T1^2 P / (1 - R1^2 P^2), P = exp(-4 pi k d / lambda)
-    # (Macleod 2010, sec. 2.6; Beer-Lambert single-pass loss)
+    # (Macleod 2010; Beer-Lambert single-pass loss)
     n, k, d, wl = 1.5, 2e-6, 1e6, 500.0
     r1 = abs((1 - complex(n, k)) / (1 + complex(n, k))) ** 2
     t1 = 1 - r1  # interface transmittance of a weakly absorbing medium, |k| << n
@@ -52,7 +52,7 @@ def _ray_sum(n_front, d_front, n_slab, n_back, d_back, d_slab, angle_deg, wl):
         beams[pol] = np.concatenate([[r], t * t_up * r_back**j * r_up ** (j - 1) * phase**j])
     rs2 = np.sum(abs(beams["s"]) ** 2)
     rp2 = np.sum(abs(beams["p"]) ** 2)
-    # each beam's Mueller matrix added in intensity (Fujiwara 2007, sec. 3.4);
+    # each beam's Mueller matrix added in intensity (Fujiwara 2007);
     # lamina's rho is conj(rp/rs) (see ellipsometry.py)
     cross = np.sum(beams["s"] * np.conj(beams["p"]))
     big_n = (rs2 - rp2) / (rs2 + rp2)

@@ -7,9 +7,9 @@ the photometric quantities (R_s, R_p, T_s, T_p) and the unnormalized Mueller
 elements (equivalently R_s, R_p and X = sum r_s conj(r_p)) by Gauss-Hermite
 quadrature, then derives N, C, S, P, Psi and Delta from the averages, so that a
 loss of polarization shows as P < 1 instead of being folded into a wrong Psi or
-Delta (Fujiwara, Spectroscopic Ellipsometry, Wiley 2007, sec. 3.4 and 5.4 on
-depolarization; the quadrature rule is the standard Gauss-Hermite rule for a
-normal distribution, Abramowitz and Stegun 25.4.46).
+Delta (Fujiwara, Spectroscopic Ellipsometry, Wiley 2007, on depolarization;
+from memory; the quadrature rule is the standard Gauss-Hermite rule,
+Abramowitz and Stegun 1964, ch. 25, for a normal distribution).
 
 Settings (all off by default; a zero setting adds no quadrature node at all,
 so an all-zero Instrument gives exactly the unaveraged result):

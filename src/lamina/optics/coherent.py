@@ -14,8 +14,9 @@ Notation (time dependence exp(-i omega t), N = n + ik, k >= 0):
   incidence inside a layer, never appears).
 
 Characteristic matrix of one layer of phase thickness delta = k0 q d
-(Born and Wolf, Principles of Optics, sec. 1.6.2; Macleod, Thin-Film Optical
-Filters, ch. 2, here in the exp(-i omega t) convention):
+(Born and Wolf, Principles of Optics, on stratified media; Macleod, Thin-Film
+Optical Filters, ch. 2 (chapters from memory); here in the exp(-i omega t)
+convention):
 
     M = [[cos delta,            -i sin(delta) / eta],
          [-i eta sin(delta),     cos delta         ]]
@@ -37,14 +38,10 @@ import numpy as np
 #: uses the same cap, so results agree with it exactly).
 MAX_PHASE_IMAG = 35.0
 
-#: |delta| below which sin(delta)/delta uses its Taylor series.
-_SMALL_PHASE = 1e-4
+def normal_component(eps, kx2, fix_branch: bool = False):
+    """q = N cos(theta) = sqrt(eps - kx^2) on the forward branch (eps = N^2).
 
-
-def normal_component(n_complex, kx2, fix_branch: bool = False):
-    """q = N cos(theta) = sqrt(N^2 - kx^2) on the forward branch.
-
-    For real kx (transparent ambient) Im(N^2 - kx^2) = 2 n k >= 0, so the
+    For real kx (transparent ambient) Im(eps - kx^2) = 2 n k >= 0, so the
     principal square root already has Im(q) >= 0 (decaying into the medium) and
     Re(q) >= 0 (power flowing away from the interface); adding +0j turns a
     signed zero -0.0 in the imaginary part into +0.0, which would otherwise put
@@ -54,7 +51,7 @@ def normal_component(n_complex, kx2, fix_branch: bool = False):
     Re(q) >= 0 (energy flows forward), and `fix_branch` additionally turns a
     purely evanescent wave (Re(q) at round-off level) onto the decaying branch.
     """
-    q = np.sqrt(n_complex * n_complex - kx2 + 0j)
+    q = np.sqrt(eps - kx2 + 0j)
     if fix_branch:
         growing = (q.imag < 0) & (np.abs(q.real) <= 1e-12 * np.abs(q))
         if np.any(growing):
@@ -62,29 +59,49 @@ def normal_component(n_complex, kx2, fix_branch: bool = False):
     return q
 
 
-def layer_terms(q, thickness_nm, k0_per_nm):
-    """cos(delta), sin(delta)/q and q sin(delta) of one layer, delta = k0 q d.
+def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf):
+    """Elements of one layer's characteristic matrices for s and p.
 
-    sin(delta)/q is written as k0 d sin(delta)/delta so that q = 0 (grazing
-    inside the layer) and d = 0 stay finite: a zero-thickness layer gives the
-    identity matrix exactly.
+    Returns (cos_d, m12_s, m21_s, m12_p, m21_p): the diagonal element cos(delta)
+    (the same for both polarizations) and the off-diagonal elements
+    m12 = -i sin(delta) / eta, m21 = -i eta sin(delta) with eta = q (s) and
+    eta = q / eps (p, tangential-H form).  With sin(delta) = (e^{i delta} -
+    e^{-i delta}) / 2i these are m12_s = -(e^{i delta} - e^{-i delta}) / (2 q) and
+    m21_s = -q (e^{i delta} - e^{-i delta}) / 2.  At q = 0 (grazing inside the
+    layer) m12_s takes its limit -i k0 d; a zero-thickness layer gives the
+    identity matrix exactly.  `kx2_bound`, an upper bound of |kx|^2, lets a
+    cheap bound skip the search for phases beyond the cap.
     """
     k0d = k0_per_nm * thickness_nm
-    delta = k0d * q
-    if np.any(np.abs(delta.imag) > MAX_PHASE_IMAG):
-        delta = delta.real + 1j * np.clip(delta.imag, -MAX_PHASE_IMAG, MAX_PHASE_IMAG)
-    phasor = np.exp(1j * delta)
+    i_delta = (1j * k0d) * q
+    if _may_exceed_cap(k0d, eps, kx2_bound):
+        # Re(i delta) = -Im(delta); cap |Im(delta)| (see MAX_PHASE_IMAG)
+        decay = i_delta.real
+        if decay.max() > MAX_PHASE_IMAG or decay.min() < -MAX_PHASE_IMAG:
+            i_delta = np.clip(decay, -MAX_PHASE_IMAG, MAX_PHASE_IMAG) + 1j * i_delta.imag
+    phasor = np.exp(i_delta)
     inverse = 1.0 / phasor
     cos_d = 0.5 * (phasor + inverse)
-    sin_d = -0.5j * (phasor - inverse)
-    small = np.abs(delta) < _SMALL_PHASE
-    if np.any(small):
-        with np.errstate(divide="ignore", invalid="ignore"):
-            sinc = np.where(small, 1.0 - delta * delta / 6.0, sin_d / delta)
-        sin_over_q = k0d * sinc
-    else:
-        sin_over_q = sin_d / q
-    return cos_d, sin_over_q, q * sin_d
+    diff = phasor - inverse
+    with np.errstate(divide="ignore", invalid="ignore"):
+        m12_s = diff / (-2.0 * q)
+    if q.real.min() <= 0:  # cheap pre-check: q = 0 needs Re(q) = 0 (principal root: Re(q) >= 0)
+        grazing = q == 0
+        if np.any(grazing):
+            m12_s = np.where(grazing, -1j * np.broadcast_to(k0d, grazing.shape), m12_s)
+    m21_s = (-0.5 * q) * diff
+    return cos_d, m12_s, m21_s, eps * m12_s, m21_s / eps
+
+
+def _may_exceed_cap(k0d, eps, kx2_bound) -> bool:
+    """False when |Im(delta)| <= k0 d |q| <= k0 d sqrt(|eps| + |kx|^2) stays below the cap.
+
+    Evaluated on the small (W,) or (B, 1, W) arrays instead of the full grid.
+    """
+    if not np.isfinite(kx2_bound):
+        return True
+    bound = np.max(k0d) * np.sqrt(np.max(np.abs(eps)) + kx2_bound)
+    return not bound <= MAX_PHASE_IMAG
 
 
 class BlockCoefficients:
@@ -110,9 +127,11 @@ def block_forward(eta_top, eta_bottom, layers):
     m21 = -i eta sin(delta).  Only the vector (B, C) is propagated upward from
     the exit medium: half the work of the full matrix product.
     """
-    b = 1.0
-    c = eta_bottom
-    for cos_d, m12, m21 in reversed(layers):
+    if not layers:
+        return _coefficients(eta_top, eta_bottom, 1.0, eta_bottom)
+    cos_d, m12, m21 = layers[-1]
+    b, c = cos_d + m12 * eta_bottom, m21 + cos_d * eta_bottom
+    for cos_d, m12, m21 in reversed(layers[:-1]):
         b, c = cos_d * b + m12 * c, m21 * b + cos_d * c
     return _coefficients(eta_top, eta_bottom, b, c)
 

@@ -17,7 +17,7 @@ at 70 deg: Psi = 43.46, Delta = 106.18).  ``tmm.ellips`` reports
 angle(-r_p / r_s) in radians; `delta_from_tmm` converts: Delta = 180 - Delta_tmm.
 
 Normalized Mueller elements of an isotropic sample (Fujiwara, Spectroscopic
-Ellipsometry, Wiley 2007, sec. 3.4):
+Ellipsometry, Wiley 2007; section from memory):
 N = cos 2Psi, C = sin 2Psi cos Delta, S = sin 2Psi sin Delta, and the degree of
 polarization P = sqrt(N^2 + C^2 + S^2), 1 for a non-depolarizing sample.
 
@@ -94,8 +94,8 @@ def psi_delta_from_mueller(n_elem, c_elem, s_elem):
 def pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_theta, eps_ambient):
     """<eps> = eps_a sin^2 th [1 + tan^2 th ((1 - rho) / (1 + rho))^2].
 
-    Azzam and Bashara, Ellipsometry and Polarized Light (1977), sec. 4.3;
-    Fujiwara (2007) eq. 5.2 (two-phase model inverted for the substrate).  The
+    Azzam and Bashara, Ellipsometry and Polarized Light (1977); Fujiwara (2007)
+    (two-phase model inverted for the substrate; sections from memory).  The
     formula is written for rho in the amplitudes' own phase convention,
     r_p / r_s = conj(tan Psi e^{i Delta}) = (C - iS) / (P + N) from the polarized
     part, so that eps2 >= 0 for an absorbing substrate.  Undefined at normal

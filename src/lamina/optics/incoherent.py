@@ -7,7 +7,7 @@ adds in intensity: the phase across a thick slab varies by many periods over
 the spectral bandwidth and the illuminated spot, so the beams of different
 round-trip orders do not interfere (Katsidis and Siapkas, Appl. Opt. 41, 3978
 (2002); Centurioni, Appl. Opt. 44, 7532 (2005); Byrnes, arXiv:1603.02720,
-sec. 6, the method of the ``tmm`` package's ``inc_tmm``).
+the method of the ``tmm`` package's ``inc_tmm``).
 
 The sum is carried out bottom-up as a recursion, which is numerically safe for
 opaque slabs (no growing intensity-transfer matrices):

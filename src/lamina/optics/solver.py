@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import LaminaInputError
-from .coherent import block_both_ways, block_forward, layer_terms, normal_component
+from .coherent import block_both_ways, block_forward, layer_matrices, normal_component
 from .ellipsometry import mueller_from_sums, pseudo_dielectric, psi_delta_from_mueller
 from .incoherent import combine, single_pass_transmission
 
@@ -143,18 +143,19 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
     absorbing_ambient = bool(np.any(n_ambient.imag != 0))
     kx = n_ambient * sin0 if absorbing_ambient else n_ambient.real * sin0
     kx2 = kx * kx
-    q = [n_ambient * cos0] + [normal_component(n, kx2, absorbing_ambient) for n in n_full[1:]]
+    kx2_bound = float(np.max(np.abs(n_ambient))) ** 2  # |kx| <= |N_0| (real angles)
     eps = [n * n for n in n_full]
-    zeta = [qj / ej for qj, ej in zip(q, eps)]  # p admittance (tangential-H form)
+    q = [n_ambient * cos0] + [normal_component(e, kx2, absorbing_ambient) for e in eps[1:]]
 
     boundaries = [0] + [j + 1 for j, c in enumerate(coherent) if not c] + [len(n_full) - 1]
+    zeta = {j: q[j] / eps[j] for j in boundaries}  # p admittance (tangential-H form) of thick media
     blocks_s, blocks_p, passes = [], [], []
     for top, bottom in zip(boundaries[:-1], boundaries[1:]):
         layers_s, layers_p = [], []
         for j in range(top + 1, bottom):
-            cos_d, sin_over_q, q_sin = layer_terms(q[j], d_full[j - 1], k0)
-            layers_s.append((cos_d, -1j * sin_over_q, -1j * q_sin))
-            layers_p.append((cos_d, (-1j * eps[j]) * sin_over_q, -1j * q_sin / eps[j]))
+            cos_d, m12_s, m21_s, m12_p, m21_p = layer_matrices(q[j], eps[j], d_full[j - 1], k0, kx2_bound)
+            layers_s.append((cos_d, m12_s, m21_s))
+            layers_p.append((cos_d, m12_p, m21_p))
         is_last = bottom == boundaries[-1]
         block = block_forward if is_last else block_both_ways
         blocks_s.append(block(q[top], q[bottom], layers_s))
@@ -168,7 +169,7 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
     ts = blocks_s[0].t
     tp = blocks_p[0].t * (n_ambient / n_full[front_bottom])  # H-field ratio -> E-field ratio
     exit_s = q[-1].real / q[0].real
-    exit_p = zeta[-1].real / zeta[0].real
+    exit_p = zeta[boundaries[-1]].real / zeta[0].real
     raw = RawResponse(rs=rs, rp=rp, ts=ts, tp=tp, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
                       Ts=sums.ts2 * exit_s, Tp=sums.tp2 * exit_p)
     normal = sin0 == 0

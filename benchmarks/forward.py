@@ -1,0 +1,102 @@
+"""Forward-solver speed: lamina.optics.solve and lamina.simulate against the tmm package.
+
+Stack (demo numbers, invented for the benchmark): ambient air / Cauchy oxide-like
+film 105 nm / single-oscillator Lorentz film 42 nm / silicon from the material
+library (tabulated).  Psi/Delta at 3 angles x 701 wavelengths (300-1000 nm).
+
+tmm loops in Python (one call per wavelength, angle and polarization), so it is
+timed on a subset of points and scaled to the full grid; the script says so.
+
+Run: python benchmarks/forward.py [--repeat N]
+"""
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+
+
+def build_stack():
+    from lamina import materials
+    from lamina.dispersion.cauchy import Cauchy
+    from lamina.dispersion.lorentz import Lorentz
+    from lamina.parameters import Param
+    from lamina.stack import Layer, Stack
+
+    oxide = Cauchy(A=1.452, B_um2=0.0036)
+    absorber = Lorentz(eps_inf=2.1, oscillators=[{"amplitude": 1.6, "center_ev": 4.6, "broadening_ev": 0.9}])
+    return Stack([Layer("oxide", oxide, Param(105.0, vary=True)),
+                  Layer("absorber", absorber, Param(42.0, vary=True))],
+                 materials.get("Si"))
+
+
+def best_of(func, repeat):
+    times = []
+    for _ in range(repeat):
+        start = time.perf_counter()
+        func()
+        times.append(time.perf_counter() - start)
+    return min(times), float(np.median(times))
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--repeat", type=int, default=200, help="timed repetitions of the solver")
+    parser.add_argument("--tmm-points", type=int, default=120, help="grid points timed with tmm")
+    args = parser.parse_args()
+
+    import tmm
+    import lamina
+    from lamina.optics import delta_from_tmm, solve
+
+    stack = build_stack()
+    wavelength = np.linspace(300.0, 1000.0, 701)
+    angles = np.array([65.0, 70.0, 75.0])
+    inputs = stack.optical_inputs(wavelength)
+    n_media, thickness, coherent = inputs.n_media, inputs.thickness_nm, inputs.coherent
+    points = angles.size * wavelength.size
+
+    solve(n_media, thickness, coherent, wavelength, angles)  # warm-up
+    best, median = best_of(lambda: solve(n_media, thickness, coherent, wavelength, angles), args.repeat)
+    sim_best, sim_median = best_of(lambda: lamina.simulate(stack, wavelength_nm=wavelength, angle_deg=angles),
+                                   max(args.repeat // 4, 5))
+    disp_best, _ = best_of(lambda: stack.optical_inputs(wavelength), args.repeat)
+    batch = 64
+    values = {"oxide.thickness_nm": np.linspace(95, 115, batch)}
+    batch_inputs = stack.optical_inputs(wavelength, values)
+    batch_best, _ = best_of(lambda: solve(batch_inputs.n_media, batch_inputs.thickness_nm, batch_inputs.coherent,
+                                          wavelength, angles), max(args.repeat // 20, 3))
+
+    # tmm on a subset of the grid, scaled to the full grid
+    rng = np.random.default_rng(0)
+    subset = rng.choice(points, size=min(args.tmm_points, points), replace=False)
+    full = solve(n_media, thickness, coherent, wavelength, angles)
+    n_table = np.array([np.broadcast_to(n, wavelength.shape) for n in n_media])
+    d_list = [np.inf] + list(thickness) + [np.inf]
+    worst = 0.0
+    start = time.perf_counter()
+    for flat in subset:
+        a, w = divmod(int(flat), wavelength.size)
+        ell = tmm.ellips(list(n_table[:, w]), d_list, np.radians(angles[a]), wavelength[w])
+        worst = max(worst, abs(np.degrees(ell["psi"]) - full["psi"][a, w]),
+                    abs((delta_from_tmm(ell["Delta"]) - full["delta"][a, w] + 180) % 360 - 180))
+    tmm_time = (time.perf_counter() - start) / subset.size * points
+
+    print(f"stack: air / Cauchy 105 nm / Lorentz 42 nm / Si (table); {angles.size} angles x "
+          f"{wavelength.size} wavelengths = {points} points")
+    print(f"lamina solve (Psi/Delta, R/T, Mueller, <eps>): best {best * 1e3:.3f} ms, median {median * 1e3:.3f} ms")
+    print(f"  per point: {best / points * 1e9:.0f} ns")
+    print(f"dispersion evaluation (stack.optical_inputs): best {disp_best * 1e3:.3f} ms")
+    print(f"lamina.simulate (dispersion + solve + Dataset): best {sim_best * 1e3:.3f} ms, "
+          f"median {sim_median * 1e3:.3f} ms")
+    print(f"batched solve, {batch} parameter sets: best {batch_best * 1e3:.2f} ms "
+          f"({batch_best / batch * 1e3:.3f} ms per set)")
+    print(f"tmm.ellips: {tmm_time * 1e3:.0f} ms for the full grid (timed on {subset.size} random points, "
+          f"scaled x{points / subset.size:.1f})")
+    print(f"speed-up of solve over tmm: {tmm_time / best:.0f}x; largest |difference| on the subset: "
+          f"{worst:.1e} deg")
+
+
+if __name__ == "__main__":
+    main()
