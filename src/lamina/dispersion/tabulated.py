@@ -101,6 +101,7 @@ def read_nk_csv(path: str | os.PathLike, where: str | None = None) -> tuple[np.n
         raise LaminaInputError(f"cannot read '{path}': {exc}", label, "a readable UTF-8 CSV file") from None
     rows = []
     header_seen = False
+    extra_width = 0
     for line_no, line in enumerate(text.splitlines(), start=1):
         stripped = line.strip()
         if not stripped or stripped.startswith("#"):
@@ -108,11 +109,15 @@ def read_nk_csv(path: str | os.PathLike, where: str | None = None) -> tuple[np.n
         cells = [c.strip() for c in next(csv.reader([stripped]))]
         if not rows and not header_seen and _is_header(cells):
             header_seen = True
+            # a header that names more columns after wavelength_nm, n, k (e.g. the n_err, k_err of
+            # `lamina invert`'s nk.csv): those extra columns are allowed and ignored
+            extra_width = len(cells) if len(cells) > 3 and [c.lower() for c in cells[:3]] == ["wavelength_nm", "n", "k"] \
+                else 0
             continue
-        if len(cells) not in (2, 3):
+        if len(cells) not in (2, 3) and not (header_seen and extra_width and len(cells) == extra_width):
             raise LaminaInputError(f"{len(cells)} columns", f"{path}:{line_no}", "wavelength_nm, n[, k]")
         try:
-            values = [float(c) for c in cells]
+            values = [float(c) for c in cells[:3]]
         except ValueError:
             raise LaminaInputError(f"'{line.strip()}' is not numbers", f"{path}:{line_no}",
                                    "numbers: wavelength_nm, n[, k]") from None

@@ -51,7 +51,9 @@ def spectra_figure(points, model_ds, title: str):
             top.plot(pts["wavelength_nm"], pts["data"], "o", ms=2.5, mfc="none", color=colour,
                      label=f"{angle:g} deg data")
             if q in model_ds.data_vars and angle in model_ds["angle"].values:
-                line = model_ds[q].sel(angle=angle)
+                line = np.asarray(model_ds[q].sel(angle=angle).values, dtype=float)
+                if q == "delta":
+                    line = _break_wraps(line)
                 top.plot(model_ds["wavelength"], line, "-", lw=1.2, color=colour, label=f"{angle:g} deg model")
             bottom.plot(pts["wavelength_nm"], pts["residual"], ".", ms=2.5, color=colour)
         bottom.axhline(0.0, color="0.5", lw=0.8)
@@ -64,6 +66,14 @@ def spectra_figure(points, model_ds, title: str):
     fig.suptitle(title, fontsize=10)
     fig.tight_layout()
     return fig
+
+
+def _break_wraps(delta_deg: np.ndarray) -> np.ndarray:
+    """NaN where Delta jumps across 0/360, so a line does not cross the whole panel."""
+    out = delta_deg.copy()
+    jumps = np.nonzero(np.abs(np.diff(delta_deg)) > 180.0)[0]
+    out[jumps + 1] = np.nan
+    return out
 
 
 def nk_figure(materials: dict):
@@ -109,3 +119,36 @@ def write_fit_plots(result, outdir) -> list[Path]:
         written.append(_save(fig, outdir / "nk.png"))
         plt.close(fig)
     return written
+
+
+def write_nk_plot(inversion, path) -> Path:
+    """n and k of a point-by-point inversion with 1-sigma bars and the oscillator-sum check."""
+    plt = _pyplot()
+    from ..fit.invert import oscillator_sum
+    from ..units import HC_EV_NM
+    wl = inversion.wavelength_nm
+    fig, (ax_n, ax_k) = plt.subplots(1, 2, figsize=(9.5, 3.8))
+    ax_n.errorbar(wl, inversion.n, yerr=np.nan_to_num(inversion.n_err, posinf=0.0), fmt="o", ms=2.5, mfc="none",
+                  lw=0.8, label="point by point")
+    ax_k.errorbar(wl, inversion.k, yerr=np.nan_to_num(inversion.k_err, posinf=0.0), fmt="o", ms=2.5, mfc="none",
+                  lw=0.8, label="point by point")
+    kk = inversion.kk
+    if kk.get("oscillators"):
+        dense = np.linspace(wl.min(), wl.max(), 400)
+        osc = kk["oscillators"]
+        eps = oscillator_sum(HC_EV_NM / dense, kk["eps_inf"], np.array([o["amplitude"] for o in osc]),
+                             np.array([o["center_ev"] for o in osc]), np.array([o["broadening_ev"] for o in osc]))
+        N = np.sqrt(eps)
+        ax_n.plot(dense, N.real, "-", lw=1.2, label="oscillator sum (KK check)")
+        ax_k.plot(dense, N.imag, "-", lw=1.2, label="oscillator sum (KK check)")
+    ax_n.set_ylabel("n")
+    ax_k.set_ylabel("k")
+    for ax in (ax_n, ax_k):
+        ax.set_xlabel("wavelength (nm)")
+        ax.grid(alpha=0.3)
+    ax_n.legend(fontsize=8, frameon=False)
+    fig.suptitle(f"layer '{inversion.layer}': n, k by inversion", fontsize=10)
+    fig.tight_layout()
+    _save(fig, Path(path))
+    plt.close(fig)
+    return Path(path)
