@@ -257,3 +257,32 @@ def test_demo_refuses_a_file_as_its_folder(tmp_path, capsys):
     code, _, err = run_cli(["demo", "-o", target], capsys)
     assert code == 2 and "not a folder" in err
     assert target.read_text(encoding="utf-8") == "keep"
+
+
+def test_inspect_recognises_a_wafer_map_and_lists_unreadable_sites(tmp_path, capsys):
+    rows = ["site,x_mm,y_mm,wavelength_nm,angle_deg,psi_deg,delta_deg"]
+    for site, (x, y) in enumerate([(0.0, 0.0), (30.0, 0.0), (0.0, -30.0)], start=1):
+        for wl in (400, 500, 600):
+            psi = "oops" if (site == 3 and wl == 500) else "20.0"
+            rows.append(f"{site},{x},{y},{wl},70,{psi},100")
+    path = tmp_path / "map.csv"
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    code, out, _ = run_cli(["inspect", path], capsys)
+    assert code == 0
+    assert "sites: 3" in out and "unreadable sites: 1" in out and "map.csv:9: column 6 (psi_deg)" in out
+
+
+def test_simulate_applies_the_model_instrument_section(tmp_path, capsys):
+    path = tmp_path / "inst.toml"
+    path.write_text(OXIDE + "[instrument]\nbandwidth_nm = 4.0\nangle_spread_deg = 0.5\n", encoding="utf-8")
+    out = tmp_path / "inst.csv"
+    assert run_cli(["simulate", path, "--wavelengths", "400:800:50", "--angles", "70", "-o", out], capsys)[0] == 0
+    stack = lamina.load_model(path)
+    wl, angle = np.arange(400.0, 800.1, 50.0), np.array([70.0])
+    averaged = lamina.simulate(stack, wavelength_nm=wl, angle_deg=angle,
+                               instrument=lamina.Instrument(bandwidth_nm=4.0, angle_spread_deg=0.5))
+    plain = lamina.simulate(stack, wavelength_nm=wl, angle_deg=angle)
+    written = lamina.read_data(out)
+    np.testing.assert_allclose(written["psi"].values, averaged["psi"].values, rtol=1e-10)
+    assert np.max(np.abs(written["psi"].values - plain["psi"].values)) > 1e-4  # averaging did something
+    assert "bandwidth_nm=4" in written.attrs["instrument"]

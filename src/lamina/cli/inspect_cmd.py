@@ -10,7 +10,8 @@ HELP = "summarise and validate a model or measurement file"
 DESCRIPTION = (
     "Read a model file (.toml) or a measurement file (.csv, .nc) with the same checks as\n"
     "'lamina fit', and print a summary: layers, materials, thicknesses and free parameters of\n"
-    "a model; quantities, wavelength range, angles, point count and metadata of a measurement.\n"
+    "a model; quantities, wavelength range, angles, point count and metadata of a measurement\n"
+    "(or sites and positions of a wafer-map file, which has a 'site' column).\n"
     "A file with a problem gives one message naming the file, line/key and what was expected,\n"
     "and exit code 2."
 )
@@ -74,10 +75,52 @@ def inspect_model(path: Path) -> list[str]:
     return lines
 
 
+def is_map_file(path: Path) -> bool:
+    """True for a wafer-map file: a CSV whose header has a 'site' column, or NetCDF with a 'site' dim."""
+    from ..data.readers import open_netcdf, read_csv_text
+
+    try:
+        if path.suffix.lower() in (".nc", ".netcdf", ".h5", ".nc4"):
+            return "site" in open_netcdf(path).dims
+        return "site" in read_csv_text(path).header
+    except LaminaInputError:
+        return False  # the measurement reader will report the problem
+
+
+def inspect_map(path: Path) -> list[str]:
+    """Summary lines of a wafer-map file (read by lamina.read_map, the reader of 'lamina map')."""
+    import numpy as np
+
+    from ..data.readers import describe_dataset
+    from ..qa.maps import read_map
+
+    ds = read_map(path)
+    problems = [str(p) for p in ds["site_problem"].values]
+    named = "wafer" in ds.coords and int(ds.attrs.get("wafer_column", 1))
+    wafers = sorted(set(str(w) for w in ds["wafer"].values)) if named else []
+    lines = [f"wafer-map file {path}", f"  sites: {ds.sizes['site']}" +
+             (f" on {len(wafers)} wafer(s): {', '.join(wafers)}" if wafers else "")]
+    x, y = ds["x_mm"].values, ds["y_mm"].values
+    lines.append(f"  site positions: x {np.nanmin(x):g} .. {np.nanmax(x):g} mm, y {np.nanmin(y):g} .. {np.nanmax(y):g} mm")
+    first_good = next(i for i, p in enumerate(problems) if not p)
+    site = ds.isel(site=first_good).drop_vars(["site_problem"], errors="ignore")
+    lines += ["  per site: " + line for line in describe_dataset(site)]
+    bad = [(str(ds["site"].values[i]), p) for i, p in enumerate(problems) if p]
+    if bad:
+        lines.append(f"unreadable sites: {len(bad)} (a map fit records them as failed)")
+        lines += [f"  site {label}: {problem}" for label, problem in bad[:10]]
+        if len(bad) > 10:
+            lines.append(f"  ... and {len(bad) - 10} more")
+    lines.append("ok: the map file is readable" + (" (with unreadable sites)" if bad else ""))
+    return lines
+
+
 def inspect_data(path: Path) -> list[str]:
     """Summary lines of a measurement file (raises LaminaInputError on a bad file)."""
     from ..data.readers import describe_dataset, read_data
 
+    if is_map_file(path):
+        return inspect_map(path)
     ds = read_data(path)
     points = sum(int((~ds[q].isnull()).sum()) for q in ds.data_vars if not str(q).endswith("_err"))
     lines = [f"measurement file {path}", f"  sha256 {ds.attrs.get('sha256', '?')}"]
