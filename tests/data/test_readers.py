@@ -220,3 +220,18 @@ def test_utf8_bom_and_blank_lines_are_fine(tmp_path):
     ds = read_data(path)
     assert ds.attrs["sample"] == "ä" and ds["R"].item() == 0.2
     assert os.path.getsize(path) > 0
+
+
+@pytest.mark.parametrize("case", sorted(BAD))
+def test_bad_data_exits_2_through_the_command_line(tmp_path, capsys, case):
+    from lamina.cli.main import main
+
+    text, where, expected = BAD[case]
+    path = write(tmp_path, text)
+    code = main(["inspect", str(path)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.startswith(f"lamina: error: {path}{where}") and expected in err, err
+    assert err.count("\n") <= 2  # one message (and at most a hint), never a traceback
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["data.csv"]
+    assert path.read_text(encoding="utf-8") == text

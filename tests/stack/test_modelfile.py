@@ -210,3 +210,18 @@ def test_save_model_is_atomic_and_leaves_no_temporary_file(tmp_path):
 def test_lamina_top_level_entry_points():
     assert lamina.load_model is load_model
     assert lamina.save_model is save_model
+
+
+@pytest.mark.parametrize("case", sorted(BAD_MODELS))
+def test_bad_model_files_exit_2_through_the_command_line(tmp_path, capsys, case):
+    from lamina.cli.main import main
+
+    text, where, expected = BAD_MODELS[case]
+    path = write(tmp_path, text)
+    out = tmp_path / "out.csv"
+    code = main(["simulate", str(path), "--wavelengths", "400:800:100", "-o", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.startswith(f"lamina: error: {tmp_path / where}"), err
+    assert not out.exists() and sorted(p.name for p in tmp_path.iterdir()) == ["model.toml"]
+    assert path.read_text(encoding="utf-8") == text
