@@ -235,3 +235,11 @@ def test_bad_data_exits_2_through_the_command_line(tmp_path, capsys, case):
     assert err.count("\n") <= 2  # one message (and at most a hint), never a traceback
     assert sorted(p.name for p in tmp_path.iterdir()) == ["data.csv"]
     assert path.read_text(encoding="utf-8") == text
+
+
+def test_semicolon_files_and_map_files_get_a_pointed_message(tmp_path):
+    with pytest.raises(LaminaInputError, match="separated by commas"):
+        read_data(write(tmp_path, "wavelength_nm;R\n500;0.2\n", "semi.csv"))
+    with pytest.raises(LaminaInputError) as info:
+        read_data(write(tmp_path, "site,wavelength_nm,R\n1,500,0.2\n", "map.csv"))
+    assert "wafer-map" in info.value.hint

@@ -36,6 +36,8 @@ from .columns import (ABSCISSA_COLUMNS, ACCEPTED_COLUMNS, FRACTIONS, QUANTITIES,
 FRACTION_TOLERANCE = 0.01
 #: Psi may stray 5 sigma outside [0, 90] when the row gives an uncertainty
 SIGMA_TOLERANCE = 5.0
+#: columns of a wafer-map file (lamina.qa.maps), named in a hint when found in a measurement file
+MAP_COLUMNS = ("site", "x_mm", "y_mm", "wafer")
 #: attribute names the reader sets itself; file metadata with these keys is kept as meta_<key>
 RESERVED_ATTRS = ("source_file", "sha256")
 
@@ -165,10 +167,17 @@ def _check_header(csv_text: CsvText, extra_columns: Sequence[str]) -> dict[str, 
     where = f"{csv_text.label}:{csv_text.header_line}"
     accepted = tuple(ACCEPTED_COLUMNS) + tuple(extra_columns)
     positions: dict[str, int] = {}
-    for index, name in enumerate(csv_text.header):
+    header = csv_text.header
+    if len(header) == 1 and any(sep in header[0] for sep in (";", "\t")):
+        raise LaminaInputError("the header is one column: the columns seem separated by ';' or tabs", where,
+                               "columns separated by commas (and '.' as the decimal point)")
+    for index, name in enumerate(header):
         if name not in accepted:
+            hint = None
+            if name in MAP_COLUMNS:
+                hint = "this looks like a wafer-map file: read it with 'lamina map' or lamina.read_map"
             raise LaminaInputError(f"unknown column '{name}' (column {index + 1})", where,
-                                   "column names among " + ", ".join(accepted))
+                                   "column names among " + ", ".join(accepted), hint=hint)
         if name in positions:
             raise LaminaInputError(f"column '{name}' appears twice (columns {positions[name] + 1} and {index + 1})",
                                    where, "each column once")
