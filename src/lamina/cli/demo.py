@@ -100,8 +100,36 @@ def step_read_back(ctx: DemoContext) -> None:
     ctx.state["dataset"] = ds
 
 
+def step_fit(ctx: DemoContext) -> None:
+    """Fit the oxide thickness to a bundled measurement (Psi, Delta at 65, 70, 75 degrees)"""
+    import json
+
+    model = ctx.sample("oxide_on_si.toml")
+    data = ctx.sample("oxide_on_si_ellips.csv")
+    out = ctx.outdir / "fit_oxide"
+    argv = ["fit", str(data), "--model", str(model), "-o", str(out)]
+    ctx.say(f"$ lamina fit {data.name} --model {model.name} -o {out}")
+    _require_ok(_cli(argv + (["--quiet"] if ctx.quiet else [])), "fit")
+    result = json.loads((out / "result.json").read_text(encoding="utf-8"))
+    fitted = result["parameters"]["oxide.thickness_nm"]
+    truth = read_truth(data).get("oxide.thickness_nm")
+    ctx.say(f"fitted oxide thickness {fitted['value']:.3f} nm +- {fitted['stderr']:.2g} nm (one sigma, from the "
+            "noise alone; a real film's uncertainty is set mostly by how well the model fits the sample)")
+    if truth is not None:
+        ctx.say(f"the invented 'true' value written in the file header is {truth:g} nm")
+    ctx.state["fit_dir"] = out
+
+
+def read_truth(path: Path) -> dict[str, float]:
+    """The `# true_<parameter>: value` lines of a bundled (synthetic) measurement file."""
+    from ..data.readers import read_csv_text
+
+    meta = read_csv_text(path).metadata
+    return {k[len("true_"):]: float(v) for k, v in meta.items() if k.startswith("true_")}
+
+
 #: the tour, in order; add a step by adding a function here
-STEPS: list[Callable[[DemoContext], None]] = [step_inspect_model, step_simulate, step_read_back]
+STEPS: list[Callable[[DemoContext], None]] = [step_inspect_model, step_simulate, step_read_back, step_fit]
 
 
 def _require_ok(code: int, what: str) -> None:
