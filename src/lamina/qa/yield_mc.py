@@ -22,7 +22,7 @@ trial is run again once per error source (each layer, thickness and index
 together; and the run-to-run scale) with that one source's error set to zero
 and all others kept; the source whose removal rescues the most failing trials
 is named `worst_layer` (None when no single removal rescues any).  At most
-`attribution_trials` failing trials (2000 by default, the first ones) are
+`attribution_trials` failing trials (1000 by default, the first ones) are
 re-run, so the cost is bounded.
 """
 from __future__ import annotations
@@ -36,7 +36,7 @@ from .recipes import RecipeEvaluator, Target, Tolerances, judge, wilson_interval
 
 DEFAULT_TRIALS = 10_000
 DEFAULT_CHUNK = 2000
-DEFAULT_ATTRIBUTION_TRIALS = 2000  # failing trials re-run per error source
+DEFAULT_ATTRIBUTION_TRIALS = 1000  # failing trials re-run per error source
 
 
 @dataclass
