@@ -37,6 +37,7 @@ Parameters (model-file key, unit):
 """
 from __future__ import annotations
 
+import functools
 import math
 from collections import OrderedDict
 
@@ -107,9 +108,10 @@ def cody_lorentz_eps2(photon_energy_ev, amplitude_ev, center_ev, broadening_ev, 
 
 # -- numerical Kramers-Kronig transform ---------------------------------------------
 
-def integration_grid(tail_step_ev: float, tail_end_ev: float, step_ev: float, dense_end_ev: float
-                     ) -> np.ndarray:
-    """Nodes from 0 to GRID_END_EV: step `tail_step_ev` up to `tail_end_ev` (the Urbach tail
+@functools.lru_cache(maxsize=16)
+def integration_grid(tail_step_ev: float, tail_end_ev: float, step_ev: float, dense_end_ev: float,
+                     grid_end_ev: float = GRID_END_EV) -> np.ndarray:
+    """Nodes from 0 to `grid_end_ev`: step `tail_step_ev` up to `tail_end_ev` (the Urbach tail
     needs the finer step), `step_ev` up to `dense_end_ev`, then growing with E.
 
     The step never grows by more than STEP_GROWTH from one node to the next
@@ -118,8 +120,8 @@ def integration_grid(tail_step_ev: float, tail_end_ev: float, step_ev: float, de
     """
     nodes = [0.0]
     step = tail_step_ev
-    # runs once per cache entry (a few thousand nodes), not per evaluation
-    while nodes[-1] < GRID_END_EV:
+    # a plain loop, but cached: it runs once per grid, not per evaluation
+    while nodes[-1] < grid_end_ev:
         here = nodes[-1]
         wanted = tail_step_ev if here < tail_end_ev else step_ev if here < dense_end_ev \
             else MAX_RELATIVE_STEP * here
@@ -127,7 +129,9 @@ def integration_grid(tail_step_ev: float, tail_end_ev: float, step_ev: float, de
         nodes.append(here + step)
     if len(nodes) % 2 == 0:
         nodes.append(nodes[-1] + step)
-    return np.array(nodes)
+    grid = np.array(nodes)
+    grid.flags.writeable = False      # shared by the cache
+    return grid
 
 
 def _antiderivatives(x, energy):
@@ -180,18 +184,6 @@ def kramers_kronig_weights(nodes: np.ndarray, photon_energy_ev: np.ndarray) -> n
     return weights
 
 
-def _quadratic_integral(left, right, f, energy):
-    """P int_left^right q(x) / (x^2 - E^2) dx, q through f at left, midpoint, right (0 if empty)."""
-    width = right - left
-    safe_right = np.where(width > 0, right, left + 1.0)
-    middle = 0.5 * (left + safe_right)
-    r_l, p_l = _antiderivatives(left, energy)
-    r_r, p_r = _antiderivatives(safe_right, energy)
-    w = _panel_weights(left, middle, safe_right, (r_l, r_r), (p_l, p_r), energy)
-    total = w[0] * f(left) + w[1] * f(middle) + w[2] * f(safe_right)
-    return np.where(width > 0, total, 0.0)
-
-
 def _kink_correction(nodes, energy, args):
     """Exact-for-quadratics fix of the one grid panel holding the kink of E eps2.
 
@@ -207,14 +199,21 @@ def _kink_correction(nodes, energy, args):
     # a kink within round-off of a panel end sits on it (no sliver sub-panel, whose ends
     # would no longer match the neighbours' at a clipped singularity)
     kink = np.where(np.abs(kink - left) < 1e-9, left, np.where(np.abs(kink - right) < 1e-9, right, kink))
-    f = lambda x: cody_lorentz_energy_eps2(x, *args)
-    # the sample just inside each side of the kink decides which formula (tail or band) applies
-    r_l, p_l = _antiderivatives(left, energy)
-    r_r, p_r = _antiderivatives(right, energy)
-    whole = _panel_weights(left, middle, right, (r_l, r_r), (p_l, p_r), energy)
-    single = whole[0] * f(left) + whole[1] * f(middle) + whole[2] * f(right)
-    split = _quadratic_integral(left, kink, f, energy) + _quadratic_integral(kink, right, f, energy)
-    return split - single
+    # three panels at once: the grid's, and the two halves meeting at the kink
+    # (3,) -> (3, 1) against energies (W,); batched (3, B, 1) already lines up
+    shape = (3, 1) if np.ndim(kink) == 0 else (3,) + np.shape(kink)
+    lo = np.stack(np.broadcast_arrays(left, left, kink)).reshape(shape)
+    hi = np.stack(np.broadcast_arrays(right, kink, right)).reshape(shape)
+    width = hi - lo
+    hi = np.where(width > 0, hi, lo + 1.0)           # empty halves: any finite panel, weight 0 below
+    mid = np.stack(np.broadcast_arrays(middle, 0.5 * (left + kink), 0.5 * (kink + right))).reshape(shape)
+    mid = np.where(width > 0, mid, 0.5 * (lo + hi))
+    values = cody_lorentz_energy_eps2(np.stack([lo, mid, hi]), *args)
+    r_lo, p_lo = _antiderivatives(lo, energy)
+    r_hi, p_hi = _antiderivatives(hi, energy)
+    w_lo, w_mid, w_hi = _panel_weights(lo, mid, hi, (r_lo, r_hi), (p_lo, p_hi), energy)
+    integrals = np.where(width > 0, w_lo * values[0] + w_mid * values[1] + w_hi * values[2], 0.0)
+    return integrals[1] + integrals[2] - integrals[0]
 
 
 _WEIGHT_CACHE: "OrderedDict[tuple, tuple]" = OrderedDict()
@@ -246,8 +245,12 @@ def _ladder_step(finest_needed: float) -> float:
 
 def _grid_for(energy, amplitude_ev, center_ev, broadening_ev, gap_ev, transition_ev, tail_onset_ev,
               urbach_ev):
-    """Grid (tail step, tail end, step, dense end) on ladders (powers of 2, whole eV) so fits hit
-    the cache."""
+    """Grid (tail step, tail end, step, dense end, grid end) on ladders (powers of 2, whole eV)
+    so fits hit the cache.
+
+    The fine steps cover the features of eps2 only (tail, onset, peak); beyond,
+    E' eps2 is smooth and the growing steps suffice, wherever the energies lie.
+    """
     step = _ladder_step(min(float(np.min(broadening_ev)) / STEPS_PER_BROADENING,
                             float(np.min(transition_ev)) / STEPS_PER_TRANSITION))
     onset = np.asarray(tail_onset_ev, dtype=float)
@@ -256,11 +259,12 @@ def _grid_for(energy, amplitude_ev, center_ev, broadening_ev, gap_ev, transition
         tail_end = float(math.ceil(float(np.max(onset)) + 0.5))
     else:
         tail_step, tail_end = step, 0.0
-    reach = max(float(np.max(energy, initial=0.0)) + 0.5,
-                float(np.max(np.asarray(center_ev) + 4.0 * np.asarray(broadening_ev))),
+    reach = max(float(np.max(np.asarray(center_ev) + 4.0 * np.asarray(broadening_ev))),
                 float(np.max(np.asarray(gap_ev) + 4.0 * np.asarray(transition_ev))),
                 tail_end + 1.0)
-    return tail_step, tail_end, step, float(math.ceil(reach))
+    # the asymptotic tail beyond the grid end assumes E well below it
+    grid_end = max(GRID_END_EV, 2.0 ** math.ceil(math.log2(20.0 * float(np.max(energy, initial=1.0)))))
+    return tail_step, tail_end, step, float(math.ceil(reach)), grid_end
 
 
 def kramers_kronig_eps1(photon_energy_ev, amplitude_ev, center_ev, broadening_ev, gap_ev,
