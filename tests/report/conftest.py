@@ -87,7 +87,7 @@ def map_summary() -> dict:
         "n_sites": 14, "n_fitted": 13, "n_failed": 1, "n_wafers": 2,
         "geometry": {"diameter_mm": 150.0, "edge_exclusion_mm": 5.0},
         "spec": {"path": "oxide_spec.toml", "limits": {"oxide.thickness_nm": {"lower": 146.0, "upper": 152.0}},
-                 "uniformity": {"oxide.thickness_nm": 2.0}},
+                 "uniformity": {"oxide.thickness_nm": {"max_nonuniformity_pct": 2.0}}},
         "pass": False,
         "wafers": {
             "LK-0412-03": {"n_sites": 7, "n_in_zone": 7, "n_failed": 0, "n_failed_in_zone": 0, "failed_sites": [],

@@ -136,12 +136,16 @@ def test_map_report_gives_verdict_per_wafer_and_failed_sites(map_dir, samples):
     assert html.index("Map fails") < html.index("Statistics, wafer LK-0412-03")
     assert "1 site could not be fitted" in html
     assert "wafer LK-0412-04: oxide.thickness_nm: non-uniformity 2.9 % above 2.0 %" in html
-    assert "lot0412_map.csv" in html and "file not found when the report was built" in html
+    assert "lot0412_map.csv" in html and "file not found at report time" in html
     assert "non-numeric psi_deg at line 812" in html
     assert "non-uniformity %" in html and ">1.44<" in html
     # conftest.map_sites: the two edge sites of wafer 04 lie 5.5 nm low (145.3 nm < 146 nm); one of
     # them failed to fit, so one site is out of spec
     assert re.search(r"sites out of spec</th><td>1<", html)
+    assert "oxide.thickness_nm = 145.3" in html  # the out-of-spec site with its value
+    # the spec as a table: limits and uniformity
+    assert re.search(r'oxide.thickness_nm</td><td class="num">146</td><td class="num">152</td>', html)
+    assert "max nonuniformity pct 2" in html
 
 
 def test_map_without_spec_or_sites_csv_still_renders(tmp_path):

@@ -49,6 +49,8 @@ CAUTION = ("Results are model-dependent: they are only as good as the optical mo
 QUANTITY_UNITS = {"psi": "deg", "delta": "deg", "R": "", "T": "", "A": "", "Rs": "", "Rp": "",
                   "Ts": "", "Tp": ""}
 STAT_ORDER = ["mean", "std", "min", "max", "range", "nonuniformity_pct", "std_over_mean_pct", "n_sites"]
+COUNT_LABELS = {"n_sites": "sites", "n_in_zone": "inside the edge exclusion", "n_failed": "not fitted",
+                "n_failed_in_zone": "not fitted inside the edge exclusion", "n_fitted": "fitted"}
 STAT_LABELS = {"mean": "mean", "std": "std", "min": "min", "max": "max", "range": "range",
                "nonuniformity_pct": "non-uniformity %", "std_over_mean_pct": "std/mean %",
                "n_sites": "sites"}
@@ -325,7 +327,7 @@ def map_section(summary: dict, folder: Path) -> dict:
         "site_columns": site_columns,
         "sites": [[_cell(r.get(c)) for c in site_columns] for r in rows[:MAX_SITE_ROWS]],
         "sites_cut": max(0, len(rows) - MAX_SITE_ROWS),
-        "spec": summary.get("spec"),
+        "spec": _spec_rows(summary.get("spec")),
         "provenance": _provenance(summary, folder / JOB_FILES["map"]),
         "extra": _extra(summary, {"wafers", "pass", "reasons", "warnings", "provenance", "spec", "failed_sites",
                                   "n_failed", "failed", "sites_failed", "n_sites", "sites", "parameters",
@@ -350,12 +352,29 @@ def _map_wafers(summary: dict) -> list[dict]:
             "name": name,
             "pass": entry.get("pass") if isinstance(entry.get("pass"), bool) else None,
             "reasons": [str(r) for r in _list(entry.get("reasons"))],
-            "stats": {str(k): v for k, v in _dict(stats).items() if isinstance(v, dict)},
-            "counts": [(str(k), _plain(v)) for k, v in entry.items()
-                       if (k.startswith("n_") or k in ("failed_sites", "sites_failed"))
-                       and not isinstance(v, (dict, list))],
+            "stats": {str(k): {sk: (fmt(sv, 5) if isinstance(sv, float) else _plain(sv)) for sk, sv in v.items()}
+                      for k, v in _dict(stats).items() if isinstance(v, dict)},
+            "counts": [(COUNT_LABELS.get(str(k), str(k)), _plain(v)) for k, v in entry.items()
+                       if str(k).startswith("n_") and not isinstance(v, (dict, list))],
         })
     return wafers
+
+
+def _spec_rows(raw: Any) -> dict | None:
+    """Spec limits as rows (parameter, lower, upper, uniformity); other fields as text."""
+    if not isinstance(raw, dict):
+        return None
+    limits, uniformity = _dict(raw.get("limits")), _dict(raw.get("uniformity"))
+    rows = []
+    for name in list(limits) + [n for n in uniformity if n not in limits]:
+        lim = _dict(limits.get(name))
+        uni = uniformity.get(name)
+        uni_text = ", ".join(f"{k.replace('_', ' ')} {_plain(v)}" for k, v in uni.items()) \
+            if isinstance(uni, dict) else _plain(uni) if uni is not None else "—"
+        rows.append({"name": str(name), "lower": _plain(lim.get("lower")), "upper": _plain(lim.get("upper")),
+                     "uniformity": uni_text})
+    other = [(str(k), _plain(v)) for k, v in raw.items() if k not in ("limits", "uniformity")]
+    return {"rows": rows, "other": other}
 
 
 def _stat_columns(wafers: list[dict]) -> list[tuple[str, str]]:
@@ -387,10 +406,15 @@ def _site_failed(row: dict) -> bool:
     return status not in ("", "ok", "fitted", "pass", "passed", "converged")
 
 
+SITE_FIXED_COLUMNS = {"site", "x_mm", "y_mm", "wafer", "status", "pass", "reduced_chi2", "reason"}
+
+
 def _site_row(row: dict, columns: list[str]) -> dict:
     where = ", ".join(f"{c} {_cell(row.get(c))}" for c in ("wafer", "x_mm", "y_mm") if c in columns)
+    values = ", ".join(f"{c} = {_cell(row.get(c))}" for c in columns
+                       if c not in SITE_FIXED_COLUMNS and not c.endswith(".stderr") and row.get(c) not in (None, ""))
     return {"site": _cell(row.get("site")), "where": where, "status": _cell(row.get("status")),
-            "reason": _cell(row.get("reason"))}
+            "reason": _cell(row.get("reason")), "site_values": values}
 
 
 # -- check --------------------------------------------------------------------
@@ -589,7 +613,7 @@ def _provenance(job: dict, job_file: Path) -> dict:
         for name in (value if isinstance(value, list) else [value]):
             if isinstance(name, str) and name and name not in recorded:
                 digest = _sha256_or_none(Path(name))
-                note = "digest computed when the report was built" if digest else "file not found when the report was built"
+                note = "digest computed at report time" if digest else "file not found at report time"
                 files.append({"name": name, "sha256": digest or "—", "note": f"{key}; {note}"})
     rows = [(str(k), _plain(v)) for k, v in raw.items() if v not in (None, "", [])]
     try:
