@@ -27,7 +27,8 @@ def _shade_band(ax, band, ylim) -> None:
     top = band.max if band.max is not None else ylim[1]
     ax.fill_between([lo, hi], [bottom, bottom], [top, top], color="#9fd39f", alpha=0.35, lw=0,
                     label="allowed region")
-    ax.annotate(band.name, xy=((lo + hi) / 2, top), ha="center", va="bottom", fontsize=7, color="#2d6a2d")
+    ax.annotate(band.name, xy=(lo, top), xytext=(2, 1), textcoords="offset points", ha="left", va="bottom",
+                fontsize=7, color="#2d6a2d")
 
 
 def _y_limits(panel) -> tuple[float, float]:
@@ -53,7 +54,7 @@ def plot_panel(panel, path: Path) -> None:
     plt = _figure()
     fig, ax = plt.subplots(figsize=(7.5, 4.2), dpi=110)
     ylim = _y_limits(panel)
-    for i, band in enumerate(panel["bands"]):
+    for band in panel["bands"]:
         _shade_band(ax, band, ylim)
     wl = panel["wavelength_nm"]
     if panel["envelope"] is not None:
