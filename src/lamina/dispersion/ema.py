@@ -12,7 +12,8 @@ medium itself, symmetric in the components:
 Two components give a quadratic, solved in closed form,
 2 eps^2 - b eps - eps_1 eps_2 = 0 with b = (3 f_1 - 1) eps_1 + (3 f_2 - 1) eps_2;
 more components give a polynomial of degree n, solved for all wavelengths at
-once as the eigenvalues of its companion matrix.  Of the roots the physical one
+once by a vectorized simultaneous root iteration (companion-matrix eigenvalues
+where it does not settle).  Of the roots the physical one
 is taken: the largest Im(eps) (a passive mixture absorbs, Im(eps) >= 0) and,
 among roots tied on that, the one nearest the volume-weighted mean of the
 components (the root continuous with the pure components as a fraction goes
@@ -98,13 +99,83 @@ def _polymul(a, b):
     return out
 
 
+def _companion_roots(monic):
+    """Roots of monic polynomials (coefficients lowest degree first, leading 1 omitted)."""
+    degree = monic.shape[-1]
+    companion = np.zeros(monic.shape[:-1] + (degree, degree), dtype=complex)
+    companion[..., np.arange(1, degree), np.arange(degree - 1)] = 1.0
+    companion[..., :, -1] = -monic
+    return np.linalg.eigvals(companion)
+
+
+def _horner(z, coeffs):
+    """Value and slope of polynomials (coefficients lowest first, last axis) at points z (..., n)."""
+    value = np.broadcast_to(coeffs[..., -1:], z.shape).astype(complex)
+    slope = np.zeros_like(value)
+    for k in range(coeffs.shape[-1] - 2, -1, -1):
+        slope = slope * z + value
+        value = value * z + coeffs[..., k:k + 1]
+    return value, slope
+
+
+def _aberth_step(z, coeffs):
+    """One Aberth-Ehrlich update of all root estimates z (..., n)."""
+    value, slope = _horner(z, coeffs)
+    ratio = value / np.where(slope == 0, 1e-300, slope)
+    repulsion = np.zeros_like(z)
+    for j in range(z.shape[-1]):
+        diff = z - z[..., j:j + 1]
+        diff[..., j] = 1.0
+        inverse = 1.0 / diff
+        inverse[..., j] = 0.0
+        repulsion = repulsion + inverse
+    step = ratio / (1.0 - ratio * repulsion)
+    return np.where(np.isfinite(step), step, 0.0)
+
+
+def polynomial_roots(monic, max_iterations: int = 60, initial=None):
+    """All roots of many monic polynomials at once (coefficients lowest degree first).
+
+    Aberth-Ehrlich simultaneous iteration (O. Aberth, Math. Comp. 27, 339 (1973)),
+    vectorized: each sweep updates every polynomial not yet settled (no Python
+    loop over polynomials); cubically convergent for simple roots.  Polynomials
+    it does not settle (clustered or multiple roots) are solved again as
+    companion-matrix eigenvalues (numpy.linalg.eigvals), exact but slower.
+    `initial` (same shape as the roots) may hold good first guesses.
+    """
+    degree = monic.shape[-1]
+    shape = monic.shape[:-1]
+    flat = monic.reshape(-1, degree)
+    coeffs = np.concatenate([flat, np.ones((flat.shape[0], 1), dtype=complex)], axis=-1)
+    radius = 1.0 + np.abs(flat).max(axis=-1, keepdims=True)          # Cauchy's bound on |root|
+    if initial is None:
+        z = 0.5 * radius * np.exp(1j * (2 * np.pi * np.arange(degree) / degree + 0.4))
+    else:
+        z = np.array(initial, dtype=complex).reshape(-1, degree)
+    active = np.arange(flat.shape[0])
+    for _ in range(max_iterations):
+        step = _aberth_step(z[active], coeffs[active])
+        z[active] -= step
+        moving = np.any(np.abs(step) > 1e-14 * radius[active], axis=-1)
+        active = active[moving]
+        if active.size == 0:
+            break
+    # check: each root must make its polynomial vanish relative to the size of its terms
+    value, _ = _horner(z, coeffs)
+    size, _ = _horner(np.abs(z) + 0j, np.abs(coeffs) + 0j)
+    gaps = np.where(np.eye(degree, dtype=bool), np.inf, np.abs(z[:, :, None] - z[:, None, :]))
+    settled = np.all(np.abs(value) <= 1e-10 * size.real, axis=-1) & (gaps.min(axis=(-2, -1)) > 1e-6 * radius[:, 0])
+    if not np.all(settled):
+        z[~settled] = _companion_roots(flat[~settled])
+    return z.reshape(shape + (degree,))
+
+
 def bruggeman_many(eps_list: Sequence, fractions: Sequence):
     """Bruggeman eps of n components (fractions sum to 1), all wavelengths at once.
 
     Multiplying sum_i f_i (eps_i - eps) / (eps_i + 2 eps) = 0 by prod_j (eps_j + 2 eps)
-    gives a polynomial of degree n in eps; its roots are the eigenvalues of the
-    companion matrix (numpy.linalg.eigvals on a stack of matrices, no loop over
-    wavelengths).  Physical root: as in the module doc.
+    gives a polynomial of degree n in eps, solved for all wavelengths at once
+    (`polynomial_roots`, no loop over wavelengths).  Physical root: as in the module doc.
     """
     eps_arrays = np.broadcast_arrays(*[np.asarray(e, dtype=complex) for e in eps_list],
                                      *[np.asarray(f, dtype=float) for f in fractions])
@@ -120,10 +191,7 @@ def bruggeman_many(eps_list: Sequence, fractions: Sequence):
         poly = poly + term
     # leading coefficient: -sum_i f_i 2^(n-1) = -2^(n-1) (never zero when fractions sum to 1)
     monic = poly[..., :-1] / poly[..., -1:]
-    companion = np.zeros(shape + (count, count), dtype=complex)
-    companion[..., np.arange(1, count), np.arange(count - 1)] = 1.0
-    companion[..., :, -1] = -monic
-    roots = np.linalg.eigvals(companion)
+    roots = polynomial_roots(monic)
     linear_mean = sum(f * e for f, e in zip(frac_arrays, eps_arrays))
     return _pick_physical_root(roots, linear_mean)
 
