@@ -106,6 +106,12 @@ def test_batch_equals_loop_of_single_evaluations():
         single = law.with_values({"tail_onset_ev": onsets[i], "broadening_ev": widths[i]}).epsilon_ev(energy)
         # same integration grid here, so only round-off differs (a matrix product vs a vector one)
         np.testing.assert_allclose(batch[i], single, rtol=1e-9, atol=1e-8)
+    # a batch over parameters that do not move the kink of eps2
+    amplitudes = np.array([60.0, 100.0])
+    batch = law.epsilon_ev(energy, {"amplitude_ev": amplitudes})
+    for i in range(2):
+        single = law.with_values({"amplitude_ev": amplitudes[i]}).epsilon_ev(energy)
+        np.testing.assert_allclose(batch[i], single, rtol=1e-9, atol=1e-8)
 
 
 def test_finite_everywhere_including_the_special_energies():

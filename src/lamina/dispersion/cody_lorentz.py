@@ -200,8 +200,10 @@ def _kink_correction(nodes, energy, args):
     # would no longer match the neighbours' at a clipped singularity)
     kink = np.where(np.abs(kink - left) < 1e-9, left, np.where(np.abs(kink - right) < 1e-9, right, kink))
     # three panels at once: the grid's, and the two halves meeting at the kink
-    # (3,) -> (3, 1) against energies (W,); batched (3, B, 1) already lines up
-    shape = (3, 1) if np.ndim(kink) == 0 else (3,) + np.shape(kink)
+    # (3,) -> (3, 1) against energies (W,); batched (any parameter (B, 1)) -> (3, B, 1)
+    batch_shape = np.broadcast_shapes(*(np.shape(a) for a in args))
+    shape = (3,) + (batch_shape if batch_shape else (1,))
+    left, middle, right, kink = np.broadcast_arrays(left, middle, right, kink, np.empty(batch_shape))[:4]
     lo = np.stack(np.broadcast_arrays(left, left, kink)).reshape(shape)
     hi = np.stack(np.broadcast_arrays(right, kink, right)).reshape(shape)
     width = hi - lo

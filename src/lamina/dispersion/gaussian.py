@@ -35,8 +35,7 @@ from scipy.special import dawsn
 
 from ..errors import LaminaInputError
 from ..parameters import ParamSpec, as_param
-from .base import Dispersion, check_keys, require
-from .tauc_lorentz import oscillator_params, oscillator_values, oscillators_to_toml
+from .base import Dispersion, check_keys, list_to_toml, list_values, read_param_list, require
 
 #: sigma = FWHM / (2 sqrt(ln 2)) turns the full width at half maximum into the 1/e half width
 FWHM_TO_SIGMA = 1.0 / (2.0 * math.sqrt(math.log(2.0)))
@@ -81,13 +80,14 @@ class Gaussian(Dispersion):
 
     def __init__(self, eps_inf, oscillators, **meta):
         params = {"eps_inf": as_param(eps_inf, self.SPECS["eps_inf"], "eps_inf")}
-        osc_params, osc_specs = oscillator_params(oscillators, self.OSCILLATOR_SPECS, "oscillators")
+        osc_params, osc_specs = read_param_list(oscillators, "oscillators", self.OSCILLATOR_SPECS,
+                                                "oscillators")
         params.update(osc_params)
         super().__init__(params, {**self.SPECS, **osc_specs}, **meta)
 
     def _susceptibility(self, photon_energy_ev, p):
         """epsilon - eps_inf (the hook composite laws add up)."""
-        return gaussian_epsilon(photon_energy_ev, 0.0, oscillator_values(p, list(self.OSCILLATOR_SPECS)))
+        return gaussian_epsilon(photon_energy_ev, 0.0, list_values(p, "oscillators", self.OSCILLATOR_SPECS))
 
     def _epsilon(self, photon_energy_ev, p):
         return p["eps_inf"] + self._susceptibility(photon_energy_ev, p)
@@ -98,7 +98,7 @@ class Gaussian(Dispersion):
         eps_inf = as_param(require(table, "eps_inf", where), cls.SPECS["eps_inf"], f"{where}.eps_inf")
         oscillators = require(table, "oscillators", where)
         # validate with the full key path before building (errors then name the model-file place)
-        oscillator_params(oscillators, cls.OSCILLATOR_SPECS, f"{where}.oscillators")
+        read_param_list(oscillators, "oscillators", cls.OSCILLATOR_SPECS, f"{where}.oscillators")
         try:
             return cls(eps_inf, oscillators)
         except LaminaInputError as err:
@@ -107,4 +107,4 @@ class Gaussian(Dispersion):
 
     def to_toml(self):
         return {"law": self.law, "eps_inf": self.params["eps_inf"].to_toml(),
-                "oscillators": oscillators_to_toml(self.params, list(self.OSCILLATOR_SPECS))}
+                "oscillators": list_to_toml(self.params, "oscillators", self.OSCILLATOR_SPECS)}

@@ -29,8 +29,9 @@ import numpy as np
 from scipy.special import xlogy
 
 from ..errors import LaminaInputError
-from ..parameters import Param, ParamSpec, as_param
-from .base import Dispersion, check_keys, require
+from ..parameters import ParamSpec, as_param
+from .base import (Dispersion, check_keys, list_key, list_length, list_to_toml, list_values, read_param_list,
+                   require)
 
 #: smallest broadening accepted (eV); C = 0 would make eps2 a delta function
 MIN_BROADENING_EV = 1e-6
@@ -98,8 +99,10 @@ def tauc_lorentz_eps1_term(photon_energy_ev, amplitude_ev, center_ev, broadening
       - A E0 C (E^2 + Eg^2) / (pi zeta^4 E) ln(|E - Eg| / (E + Eg))
       + 2 A E0 C Eg / (pi zeta^4) ln[|E - Eg| (E + Eg) / sqrt((E0^2 - Eg^2)^2 + Eg^2 C^2)]
 
-    (the form of the published erratum).  The last two logarithms are combined
-    (`_gap_log_term`) so that E = Eg and E -> 0 stay finite.  Requires C < 2 E0.
+    (the corrected form of the erratum, as recalled from memory; the tests check
+    it against a numerical Kramers-Kronig integral of eps2 to 1e-6).  The last
+    two logarithms are combined (`_gap_log_term`) so that E = Eg and E -> 0 stay
+    finite.  Requires C < 2 E0.
     """
     energy = np.asarray(photon_energy_ev, dtype=float)
     a, e0, c, eg = (np.asarray(x, dtype=float) for x in (amplitude_ev, center_ev, broadening_ev, gap_ev))
@@ -143,60 +146,6 @@ def tauc_lorentz_epsilon(photon_energy_ev, eps_inf, gap_ev, oscillators: Sequenc
     return eps_inf + tauc_lorentz_susceptibility(photon_energy_ev, gap_ev, oscillators)
 
 
-# -- shared helpers for laws with a list of oscillators ---------------------------------
-
-def oscillator_key(index: int, name: str) -> str:
-    """Local parameter name of an oscillator entry, 1-based: ``oscillators.2.center_ev``."""
-    return f"oscillators.{index}.{name}"
-
-
-def oscillator_params(oscillators, osc_specs: Mapping[str, ParamSpec], where: str
-                      ) -> tuple[dict[str, Param], dict[str, ParamSpec]]:
-    """Params and specs for a list of oscillator tables (numbers or Param values)."""
-    if isinstance(oscillators, Mapping) or not isinstance(oscillators, Sequence) or isinstance(oscillators, str):
-        raise LaminaInputError(f"{oscillators!r} is not a list of tables", where,
-                               "a list of tables {" + ", ".join(osc_specs) + "}")
-    if len(oscillators) == 0:
-        raise LaminaInputError("no oscillators", where, "at least one oscillator")
-    params: dict[str, Param] = {}
-    specs: dict[str, ParamSpec] = {}
-    for index, osc in enumerate(oscillators, start=1):
-        osc_where = f"{where}.{index}"
-        if not isinstance(osc, Mapping):
-            raise LaminaInputError(f"{osc!r} is not a table", osc_where,
-                                   "a table {" + ", ".join(osc_specs) + "}")
-        check_keys(osc, set(osc_specs), osc_where)
-        for name, spec in osc_specs.items():
-            key = oscillator_key(index, name)
-            params[key] = as_param(require(osc, name, osc_where), spec, f"{osc_where}.{name}")
-            specs[key] = spec
-    return params, specs
-
-
-def oscillator_count(params: Mapping[str, object]) -> int:
-    """Number of oscillators among local parameter names."""
-    indices = {int(key.split(".")[1]) for key in params if key.startswith("oscillators.")}
-    return max(indices, default=0)
-
-
-def oscillator_values(p: Mapping[str, object], names: Sequence[str]) -> list[dict]:
-    """Per-oscillator value mappings ``[{name: value}, ...]`` from flat local names."""
-    return [{name: p[oscillator_key(i, name)] for name in names}
-            for i in range(1, oscillator_count(p) + 1)]
-
-
-def oscillators_to_toml(params: Mapping[str, Param], names: Sequence[str]) -> list[dict]:
-    return [{name: params[oscillator_key(i, name)].to_toml() for name in names}
-            for i in range(1, oscillator_count(params) + 1)]
-
-
-def _first_violation(mask) -> int | None:
-    """Index of the first True in a (possibly batched) boolean mask, None if all False."""
-    flat = np.ravel(mask)
-    hits = np.flatnonzero(flat)
-    return int(hits[0]) if hits.size else None
-
-
 # -- the law ----------------------------------------------------------------------
 
 class TaucLorentz(Dispersion):
@@ -212,31 +161,36 @@ class TaucLorentz(Dispersion):
     def __init__(self, eps_inf, gap_ev, oscillators, **meta):
         params = {"eps_inf": as_param(eps_inf, self.SPECS["eps_inf"], "eps_inf"),
                   "gap_ev": as_param(gap_ev, self.SPECS["gap_ev"], "gap_ev")}
-        osc_params, osc_specs = oscillator_params(oscillators, self.OSCILLATOR_SPECS, "oscillators")
+        osc_params, osc_specs = read_param_list(oscillators, "oscillators", self.OSCILLATOR_SPECS,
+                                                "oscillators")
         params.update(osc_params)
         super().__init__(params, {**self.SPECS, **osc_specs}, **meta)
         self.check_relations({k: prm.value for k, prm in self.params.items()})
 
     def check_relations(self, p: Mapping[str, object]) -> None:
-        """Raise LaminaInputError when C >= 2 E0 for an oscillator (closed form undefined)."""
-        for i in range(1, oscillator_count(p) + 1):
-            c = np.asarray(p[oscillator_key(i, "broadening_ev")], dtype=float)
-            e0 = np.asarray(p[oscillator_key(i, "center_ev")], dtype=float)
-            bad = _first_violation(np.broadcast_to(~(c < 2.0 * e0), np.broadcast_shapes(c.shape, e0.shape)))
-            if bad is not None:
-                c_bad = float(np.ravel(np.broadcast_to(c, np.broadcast_shapes(c.shape, e0.shape)))[bad])
-                e0_bad = float(np.ravel(np.broadcast_to(e0, np.broadcast_shapes(c.shape, e0.shape)))[bad])
-                batch = f" (batch member {bad})" if np.ndim(c) or np.ndim(e0) else ""
+        """Raise LaminaInputError when C >= 2 E0 for an oscillator (closed form undefined).
+
+        Checked at construction and at every evaluation (a fit or a batch may
+        move C and E0 independently); the message names the batch member.
+        """
+        for i in range(1, list_length(p, "oscillators") + 1):
+            key = list_key("oscillators", i, "broadening_ev")
+            c, e0 = np.broadcast_arrays(np.asarray(p[key], dtype=float),
+                                        np.asarray(p[list_key("oscillators", i, "center_ev")], dtype=float))
+            bad = np.flatnonzero(~(c < 2.0 * e0))      # also catches NaN
+            if bad.size:
+                first = bad[0]
+                member = f" (batch member {first})" if c.ndim else ""
                 raise LaminaInputError(
-                    f"broadening_ev = {c_bad:g} is not below 2 x center_ev = {2 * e0_bad:g}{batch}",
-                    oscillator_key(i, "broadening_ev"),
+                    f"broadening_ev = {c.ravel()[first]:g} is not below 2 x center_ev = "
+                    f"{2.0 * e0.ravel()[first]:g}{member}", key,
                     "broadening_ev < 2 x center_ev (the Tauc-Lorentz closed form needs it)")
 
     def _susceptibility(self, photon_energy_ev, p):
         """epsilon - eps_inf (the hook composite laws add up)."""
         self.check_relations(p)
         return tauc_lorentz_susceptibility(photon_energy_ev, p["gap_ev"],
-                                           oscillator_values(p, list(self.OSCILLATOR_SPECS)))
+                                           list_values(p, "oscillators", self.OSCILLATOR_SPECS))
 
     def _epsilon(self, photon_energy_ev, p):
         return p["eps_inf"] + self._susceptibility(photon_energy_ev, p)
@@ -247,7 +201,8 @@ class TaucLorentz(Dispersion):
         eps_inf = as_param(require(table, "eps_inf", where), cls.SPECS["eps_inf"], f"{where}.eps_inf")
         gap = as_param(require(table, "gap_ev", where), cls.SPECS["gap_ev"], f"{where}.gap_ev")
         oscillators = require(table, "oscillators", where)
-        _, _ = oscillator_params(oscillators, cls.OSCILLATOR_SPECS, f"{where}.oscillators")
+        # validate with the full key path first, so errors name the model-file place
+        read_param_list(oscillators, "oscillators", cls.OSCILLATOR_SPECS, f"{where}.oscillators")
         try:
             return cls(eps_inf, gap, oscillators)
         except LaminaInputError as err:
@@ -259,4 +214,4 @@ class TaucLorentz(Dispersion):
         return {"law": self.law,
                 "eps_inf": self.params["eps_inf"].to_toml(),
                 "gap_ev": self.params["gap_ev"].to_toml(),
-                "oscillators": oscillators_to_toml(self.params, list(self.OSCILLATOR_SPECS))}
+                "oscillators": list_to_toml(self.params, "oscillators", self.OSCILLATOR_SPECS)}
