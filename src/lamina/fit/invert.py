@@ -145,6 +145,12 @@ def _lm(problem: _PointProblem, n: np.ndarray, k: np.ndarray, iterations: int = 
         g = np.einsum("wmi,wm->wi", J, r)
         diag = np.diagonal(JTJ, axis1=1, axis2=2)[:, :, None] * eye
         step = -_solve2(JTJ + damping[:, None, None] * (diag + 1e-12 * eye), g)
+        # k pinned at its floor and pushed below it: the bound is active, step in n alone
+        active = (k <= K_FLOOR) & (step[:, 1] < 0)
+        if active.any():
+            jnn = JTJ[:, 0, 0] * (1 + damping) + 1e-300
+            step[:, 0] = np.where(active, -g[:, 0] / jnn, step[:, 0])
+            step[:, 1] = np.where(active, 0.0, step[:, 1])
         step[converged] = 0.0
         n_new = n + step[:, 0]
         k_new = np.maximum(k + step[:, 1], K_FLOOR)
