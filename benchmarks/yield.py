@@ -39,7 +39,7 @@ def build():
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--trials", type=int, default=10_000)
-    parser.add_argument("--chunk", type=int, default=2000)
+    parser.add_argument("--chunk", type=int, default=1000)
     parser.add_argument("--repeat", type=int, default=3)
     args = parser.parse_args()
 

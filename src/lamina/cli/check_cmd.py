@@ -81,8 +81,8 @@ def run(args) -> int:
     outdir = Path(args.outdir)
     if outdir.exists() and not outdir.is_dir():
         raise LaminaInputError("exists and is not a folder", str(outdir), "an output folder")
-    report, plot_data = check_recipe(args.recipe, args.target, measured=args.measured, tolerances=args.tolerances,
-                                  trials=args.trials, seed=args.seed)
+    report, plot_data = check_recipe(args.recipe, args.target, measured=args.measured,
+                                     tolerances=args.tolerances, trials=args.trials, seed=args.seed)
     outdir.mkdir(parents=True, exist_ok=True)
     from ..data.writers import atomic_write_text
     atomic_write_text(outdir / "check.json", json.dumps(_json_ready(report), indent=2) + "\n")

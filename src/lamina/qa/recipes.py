@@ -223,6 +223,9 @@ def parse_band(table, where: str) -> Band:
     name = table.get("name", where.rsplit(": ", 1)[-1])
     if not isinstance(name, str) or not name.strip():
         raise LaminaInputError(f"name = {name!r} is not a non-empty string", f"{where}.name", "a band name")
+    if name == "color":
+        raise LaminaInputError("the band name 'color' is reserved for the colour result", f"{where}.name",
+                               "another band name")
     quantity = _choice(table, "quantity", where, QUANTITIES, None)
     polarization = _choice(table, "polarization", where, POLARIZATIONS, "unpolarized")
     if quantity in ("psi", "delta") and polarization != "unpolarized":

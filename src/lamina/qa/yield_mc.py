@@ -27,6 +27,8 @@ re-run, so the cost is bounded.
 """
 from __future__ import annotations
 
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -35,7 +37,9 @@ from scipy.special import ndtr
 from .recipes import RecipeEvaluator, Target, Tolerances, judge, wilson_interval
 
 DEFAULT_TRIALS = 10_000
-DEFAULT_CHUNK = 2000
+DEFAULT_CHUNK = 1000
+#: threads evaluating chunks side by side (2 cores is the common case)
+DEFAULT_WORKERS = max(1, min(2, os.cpu_count() or 1))
 DEFAULT_ATTRIBUTION_TRIALS = 1000  # failing trials re-run per error source
 
 
@@ -82,15 +86,28 @@ def draw_errors(tolerances: Tolerances, layer_names: list[str], nominal_nm: np.n
 
 
 def _pass_mask(evaluator: RecipeEvaluator, target: Target, thickness: np.ndarray, index_scale: np.ndarray,
-               chunk: int, keep: dict | None = None) -> np.ndarray:
-    """Pass (N,) of the given trials, evaluated in chunks of `chunk` to bound memory."""
-    passes = np.empty(thickness.shape[0], dtype=bool)
-    for start in range(0, thickness.shape[0], chunk):
+               chunk: int, keep: dict | None = None, workers: int | None = None) -> np.ndarray:
+    """Pass (N,) of the given trials, evaluated in chunks of `chunk` to bound memory.
+
+    Chunks run on `workers` threads (default: up to 2, one per core): numpy
+    releases the GIL inside its array operations, so two chunks in flight
+    use two cores.  Results do not depend on the number of workers or the chunk size.
+    """
+    starts = list(range(0, thickness.shape[0], chunk))
+
+    def one(start):
         stop = min(start + chunk, thickness.shape[0])
-        spectra = evaluator.spectra(thickness[start:stop], index_scale[start:stop])
-        judged = judge(target, spectra)
-        passes[start:stop] = judged["pass"]
-        if keep is not None:
+        return judge(target, evaluator.spectra(thickness[start:stop], index_scale[start:stop]))
+
+    workers = min(DEFAULT_WORKERS if workers is None else workers, len(starts))
+    if workers > 1:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            results = list(pool.map(one, starts))
+    else:
+        results = [one(start) for start in starts]
+    passes = np.concatenate([r["pass"] for r in results]) if results else np.zeros(0, dtype=bool)
+    if keep is not None:
+        for judged in results:
             for key, value in judged.items():
                 if key != "pass":
                     keep.setdefault(key, []).append(value)
