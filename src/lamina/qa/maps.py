@@ -407,7 +407,11 @@ def _worker_addresses(client) -> list[str]:
 
 
 def _warm_up() -> None:
-    import lamina.fit.engine  # noqa: F401  (scipy, lmfit and the solver come with it)
+    """Pay the imports once per worker, in parallel: lmfit alone (it pulls in scipy.stats) costs
+    seconds, and the fit imports it lazily on the first site."""
+    import lmfit  # noqa: F401
+    import lamina.fit.engine  # noqa: F401
+    import lamina.optics.solver  # noqa: F401
 
 
 def _chunks(indices: list[int], size: int) -> list[list[int]]:

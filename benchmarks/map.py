@@ -1,0 +1,103 @@
+"""Throughput of `lamina map`: whole command (subprocess, start-up included), 1 and 2 workers.
+
+Maps: 49 and 400 sites of thermal oxide on Si (the sample map's model, library SiO2 and
+Si), one angle (70 deg), 50 wavelengths 400-1000 nm, Psi/Delta with typical noise.  The
+data are simulated by lamina here and are synthetic.  Prints seconds, sites per second
+and the speed-up of 2 workers over 1.
+
+    python benchmarks/map.py                  # both maps, 1 and 2 workers
+    python benchmarks/map.py --sites 400 --workers 2 --repeat 2
+
+Goal on a 2-core machine for the 400-site map: 2 workers at least 1.6x faster than 1,
+and at least 20 sites/s with 2 workers.  Other load on the machine spoils the figures:
+run it on a quiet machine (the script prints the load average it saw).
+"""
+from __future__ import annotations
+
+import argparse
+import math
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+ROOT = Path(__file__).resolve().parents[1]
+MODEL = ROOT / "src" / "lamina" / "sample_data" / "maps" / "oxide_map_model.toml"
+WAVELENGTH_NM = np.linspace(400.0, 1000.0, 50)
+
+
+def layout(n_sites: int):
+    """The n_sites grid points nearest the centre on a square grid that fills r <= 72 mm."""
+    pitch = math.sqrt(math.pi * 72.0 ** 2 / n_sites)
+    axis = np.arange(-80.0, 80.0 + 1e-9, pitch)
+    x, y = np.meshgrid(axis - axis[np.argmin(np.abs(axis))], axis - axis[np.argmin(np.abs(axis))])
+    x, y = x.ravel(), y.ravel()
+    order = np.argsort(np.hypot(x, y), kind="stable")[:n_sites]
+    return np.round(x[order], 3), np.round(y[order], 3)
+
+
+def write_map(path: Path, n_sites: int, seed: int = 1) -> Path:
+    import lamina
+    stack = lamina.load_model(MODEL)
+    x_mm, y_mm = layout(n_sites)
+    thickness = 100.0 + 2.0 * (np.hypot(x_mm, y_mm) / 70.0) ** 2
+    spectra = lamina.simulate(stack, wavelength_nm=WAVELENGTH_NM, angle_deg=[70.0],
+                              values={"oxide.thickness_nm": thickness})
+    rng = np.random.default_rng(seed)
+    psi = spectra["psi"].transpose("batch", "angle", "wavelength").values[:, 0, :]
+    delta = spectra["delta"].transpose("batch", "angle", "wavelength").values[:, 0, :]
+    psi = psi + rng.normal(0, 0.02, psi.shape)
+    delta = np.mod(delta + rng.normal(0, 0.05, delta.shape), 360.0)
+    lines = ["# synthetic benchmark map (simulated by lamina; not a measurement)",
+             "site,x_mm,y_mm,wavelength_nm,angle_deg,psi_deg,psi_err_deg,delta_deg,delta_err_deg"]
+    for i in range(n_sites):
+        for w, wavelength in enumerate(WAVELENGTH_NM):
+            lines.append(f"{i + 1},{x_mm[i]:g},{y_mm[i]:g},{wavelength:.4f},70,{psi[i, w]:.4f},0.02,"
+                         f"{delta[i, w]:.4f},0.05")
+    path.write_text("\n".join(lines) + "\n")
+    return path
+
+
+def run(mapfile: Path, workers: int, outdir: Path) -> float:
+    command = [sys.executable, "-m", "lamina.cli", "map", str(mapfile), "--model", str(MODEL),
+               "--workers", str(workers), "--quiet", "-o", str(outdir)]
+    start = time.perf_counter()
+    done = subprocess.run(command, capture_output=True, text=True)
+    seconds = time.perf_counter() - start
+    if done.returncode not in (0, 1):
+        raise SystemExit(f"lamina map failed ({done.returncode}):\n{done.stderr}")
+    return seconds
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--sites", type=int, nargs="+", default=[49, 400])
+    parser.add_argument("--workers", type=int, nargs="+", default=[1, 2])
+    parser.add_argument("--repeat", type=int, default=1, help="runs per case; the fastest counts")
+    args = parser.parse_args(argv)
+    print(f"cores: {os.cpu_count()}, load average before: {os.getloadavg()[0]:.2f}")
+    with tempfile.TemporaryDirectory() as tmp:
+        folder = Path(tmp)
+        for n_sites in args.sites:
+            mapfile = write_map(folder / f"map{n_sites}.csv", n_sites)
+            best = {}
+            for workers in args.workers:
+                times = [run(mapfile, workers, folder / f"out{n_sites}_{workers}_{k}") for k in range(args.repeat)]
+                best[workers] = min(times)
+                print(f"{n_sites:4d} sites, {workers} worker(s): {best[workers]:6.2f} s  "
+                      f"{n_sites / best[workers]:6.1f} sites/s  (runs: {', '.join(f'{t:.2f}' for t in times)})",
+                      flush=True)
+            if 1 in best and len(best) > 1:
+                for workers, seconds in best.items():
+                    if workers != 1:
+                        print(f"{n_sites:4d} sites: speed-up {workers} workers over 1: {best[1] / seconds:.2f}x")
+    print(f"load average after: {os.getloadavg()[0]:.2f}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
