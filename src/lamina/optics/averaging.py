@@ -29,6 +29,7 @@ so an all-zero Instrument gives exactly the unaveraged result):
 from __future__ import annotations
 
 import math
+import numbers
 from dataclasses import dataclass
 from typing import Callable
 
@@ -52,11 +53,11 @@ class Instrument:
     def __post_init__(self):
         for name in ("bandwidth_nm", "angle_spread_deg", "thickness_nonuniformity_pct"):
             value = getattr(self, name)
-            if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value) \
+            if isinstance(value, bool) or not isinstance(value, numbers.Real) or not math.isfinite(value) \
                     or value < 0:
                 raise LaminaInputError(f"{name} = {value!r} is not a non-negative number", f"instrument.{name}",
                                        "a number >= 0 (0 switches the effect off)")
-        if isinstance(self.nodes, bool) or not isinstance(self.nodes, int) or self.nodes < 3 \
+        if isinstance(self.nodes, bool) or not isinstance(self.nodes, numbers.Integral) or self.nodes < 3 \
                 or self.nodes % 2 == 0 or self.nodes > 21:
             raise LaminaInputError(f"nodes = {self.nodes!r}", "instrument.nodes", "an odd integer from 3 to 21")
 
@@ -146,14 +147,13 @@ def averaged_solve(n_media_at: Callable, thickness_nm, coherent, wavelength_nm, 
 
 def _indices_at(n_media_at, sampled_wl, batch_ndim):
     """Indices at the sampled wavelengths as (n_wl, 1, 1, *batch, 1, W)."""
-    from ..errors import LaminaInputError as _Err
     n_wl, width = sampled_wl.shape
     try:
         n_flat = n_media_at(sampled_wl.reshape(-1))
-    except _Err as err:
-        raise _Err(err.problem + f" (the spectral bandwidth average samples up to "
-                   f"{np.abs(sampled_wl[0] - sampled_wl[n_wl // 2]).max():.3g} nm beyond each wavelength)",
-                   err.where, err.expected) from None
+    except LaminaInputError as err:
+        reach = np.abs(sampled_wl[0] - sampled_wl[n_wl // 2]).max()
+        raise LaminaInputError(f"{err.problem} (the spectral bandwidth average samples up to {reach:.3g} nm "
+                               "beyond each wavelength)", err.where, err.expected) from None
     out = []
     for n in n_flat:
         n = np.asarray(n, dtype=complex)
