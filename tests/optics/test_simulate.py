@@ -94,3 +94,12 @@ def test_solver_input_errors_are_user_errors():
         solve([1.0, np.ones(3), 3.0], [10.0], [True], [500.0, 600.0], 70.0)
     with pytest.raises(LaminaInputError):
         lamina.simulate(oxide_stack(), wavelength_nm=-5.0, angle_deg=70.0)
+
+
+def test_bandwidth_beyond_a_material_range_names_the_cause():
+    from lamina import materials
+    bare_si = Stack([], materials.get("Si"))
+    lo = materials.get("Si").valid_range_nm[0]
+    with pytest.raises(LaminaInputError, match="bandwidth"):
+        lamina.simulate(bare_si, wavelength_nm=[lo + 1.0, 600.0], angle_deg=70.0,
+                        instrument=lamina.Instrument(bandwidth_nm=4.0))
