@@ -418,7 +418,12 @@ def _is_inline(value) -> bool:
 
 
 def _key(key: str) -> str:
-    return key if _BARE_KEY.match(key) else json.dumps(key, ensure_ascii=False)
+    return key if _BARE_KEY.match(key) else _string(key)
+
+
+def _string(text: str) -> str:
+    """A TOML basic string: JSON escapes, plus DEL, which TOML forbids raw and JSON leaves alone."""
+    return json.dumps(text, ensure_ascii=False).replace("\x7f", "\\u007f")
 
 
 def _inline(value) -> str:
@@ -433,7 +438,7 @@ def _inline(value) -> str:
             return "inf" if value > 0 else "-inf"
         return repr(value)
     if isinstance(value, str):
-        return json.dumps(value, ensure_ascii=False)
+        return _string(value)
     if isinstance(value, (_dt.datetime, _dt.date, _dt.time)):
         return value.isoformat()
     if isinstance(value, Mapping):
