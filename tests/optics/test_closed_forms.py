@@ -186,3 +186,20 @@ def test_zero_thickness_layer_is_invisible_even_at_grazing_in_layer():
     np.testing.assert_allclose(out["rs"], ref["rs"], atol=1e-15)
     np.testing.assert_allclose(out["rp"], ref["rp"], atol=1e-15)
     assert all(np.all(np.isfinite(v)) for v in thin.values())
+
+
+def test_total_internal_reflection_with_signed_zero_index():
+    # an exit index whose imaginary part is -0.0 must still give the decaying evanescent
+    # wave: R = 1, T = 0 beyond the critical angle (Born and Wolf 1999, ch. 1; common practice)
+    exit_index = np.array([complex(1.0, -0.0)])
+    out = solve([1.5, exit_index], [], [], 600.0, [45.0, 60.0, 80.0])
+    np.testing.assert_allclose(out["R"], 1.0, atol=1e-14)
+    np.testing.assert_allclose(out["T"], 0.0, atol=1e-14)
+    # and the TIR phase: tan(Delta/2) magnitude = cos th sqrt(sin^2 th - n^2) / sin^2 th
+    # (Born and Wolf 1999, total reflection; n = 1/1.5), Psi = 45
+    th = np.radians([45.0, 60.0, 80.0])
+    rel = 1 / 1.5
+    half = np.degrees(np.arctan(np.cos(th) * np.sqrt(np.sin(th) ** 2 - rel**2) / np.sin(th) ** 2))
+    np.testing.assert_allclose(out["psi"][:, 0], 45.0, atol=1e-12)
+    delta = out["delta"][:, 0]
+    np.testing.assert_allclose(np.minimum(delta, 360 - delta), 2 * half, atol=1e-9)

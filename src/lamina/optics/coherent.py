@@ -43,15 +43,16 @@ def normal_component(eps, kx2, fix_branch: bool = False):
 
     For real kx (transparent ambient) Im(eps - kx^2) = 2 n k >= 0, so the
     principal square root already has Im(q) >= 0 (decaying into the medium) and
-    Re(q) >= 0 (power flowing away from the interface); adding +0j turns a
-    signed zero -0.0 in the imaginary part into +0.0, which would otherwise put
-    an evanescent (total internal reflection) wave on the growing branch.
+    Re(q) >= 0 (power flowing away from the interface).  A signed zero -0.0 in
+    the imaginary part would put an evanescent (total internal reflection) wave
+    on the growing branch; x - y is -0.0 only when x is, so the caller passes
+    eps with its signed zeros cleared (eps + 0j, on the small (W,) array).
 
     With an absorbing ambient kx is complex; the principal root still has
     Re(q) >= 0 (energy flows forward), and `fix_branch` additionally turns a
     purely evanescent wave (Re(q) at round-off level) onto the decaying branch.
     """
-    q = np.sqrt(eps - kx2 + 0j)
+    q = np.sqrt(eps - kx2)
     if fix_branch:
         growing = (q.imag < 0) & (np.abs(q.real) <= 1e-12 * np.abs(q))
         if np.any(growing):

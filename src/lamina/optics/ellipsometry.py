@@ -72,9 +72,11 @@ def mueller_from_sums(rs2, rp2, cross, cos_2theta):
     total = rs2 + rp2
     dark = total < DARK_REFLECTANCE
     with np.errstate(divide="ignore", invalid="ignore"):
-        n_elem = (rs2 - rp2) / total
-        c_elem = 2.0 * cross.real / total
-        s_elem = 2.0 * cross.imag / total
+        inverse = 1.0 / total
+        n_elem = (rs2 - rp2) * inverse
+        twice = 2.0 * inverse
+        c_elem = cross.real * twice
+        s_elem = cross.imag * twice
     if np.any(dark):
         c2 = np.broadcast_to(cos_2theta, total.shape)
         n_elem = np.where(dark, (1.0 - c2 * c2) / (1.0 + c2 * c2), n_elem)

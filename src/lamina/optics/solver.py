@@ -144,7 +144,7 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
     kx = n_ambient * sin0 if absorbing_ambient else n_ambient.real * sin0
     kx2 = kx * kx
     kx2_bound = float(np.max(np.abs(n_ambient))) ** 2  # |kx| <= |N_0| (real angles)
-    eps = [n * n for n in n_full]
+    eps = [n * n + 0j for n in n_full]  # + 0j: no -0.0 imaginary parts (see normal_component)
     q = [n_ambient * cos0] + [normal_component(e, kx2, absorbing_ambient) for e in eps[1:]]
 
     boundaries = [0] + [j + 1 for j, c in enumerate(coherent) if not c] + [len(n_full) - 1]
