@@ -243,3 +243,36 @@ def test_semicolon_files_and_map_files_get_a_pointed_message(tmp_path):
     with pytest.raises(LaminaInputError) as info:
         read_data(write(tmp_path, "site,wavelength_nm,R\n1,500,0.2\n", "map.csv"))
     assert "wafer-map" in info.value.hint
+
+
+def test_csv_round_trip_property(tmp_path):
+    from hypothesis import given, settings
+    from hypothesis import strategies as st
+
+    from lamina.data.readers import coordinates, variable_attrs
+
+    grids = st.tuples(
+        st.lists(st.floats(0.0, 89.9), min_size=1, max_size=3, unique=True),
+        st.lists(st.floats(150.0, 5000.0), min_size=1, max_size=5, unique=True),
+    )
+
+    @settings(max_examples=25, deadline=None)
+    @given(grids, st.integers(0, 2**32 - 1), st.text(st.characters(blacklist_categories=("Cs", "Cc")), max_size=40))
+    def check(grid, seed, note):
+        angle, wavelength = np.sort(grid[0]), np.sort(grid[1])
+        rng = np.random.default_rng(seed)
+        shape = (angle.size, wavelength.size)
+        ds = xr.Dataset({"psi": (("angle", "wavelength"), rng.uniform(0, 90, shape), variable_attrs("psi")),
+                         "delta": (("angle", "wavelength"), rng.uniform(0, 360, shape), variable_attrs("delta")),
+                         "R": (("angle", "wavelength"), rng.uniform(0, 1, shape), variable_attrs("R"))},
+                        coords=coordinates(angle, wavelength))
+        path = write_data(ds, tmp_path / "prop.csv", metadata={"note": note})
+        back = read_data(path)
+        # floats are written with their shortest exact text: the values come back bit for bit
+        np.testing.assert_array_equal(back["angle"].values, angle)
+        np.testing.assert_array_equal(back["wavelength"].values, wavelength)
+        for name in ("psi", "delta", "R"):
+            np.testing.assert_array_equal(back[name].values, ds[name].values)
+        assert back.attrs.get("note", "") == note.strip() or "\n" in note
+
+    check()

@@ -124,7 +124,7 @@ def _header_metadata(dataset, metadata: Mapping[str, object] | None) -> dict[str
 
 
 def write_csv(dataset, path, comments: Iterable[str] = (), metadata: Mapping[str, object] | None = None) -> Path:
-    """Long-form CSV: one row per (angle, wavelength) point; every cell filled."""
+    """Long-form CSV: one row per (angle, wavelength) point; every cell filled; floats exact."""
     import pandas as pd
 
     names = _variables(dataset)
@@ -149,7 +149,8 @@ def write_csv(dataset, path, comments: Iterable[str] = (), metadata: Mapping[str
     for key, value in _header_metadata(dataset, metadata).items():
         for i, line in enumerate(str(value).splitlines() or [""]):
             lines.append(f"# {key}: {line}" if i == 0 else f"#   {line}")
-    body = frame.to_csv(index=False, float_format="%.12g", lineterminator="\n")
+    # no float_format: every float is written with the shortest text that reads back exactly
+    body = frame.to_csv(index=False, lineterminator="\n")
     return atomic_write_text(path, "\n".join(lines) + ("\n" if lines else "") + body)
 
 
