@@ -9,7 +9,9 @@ DESCRIPTION = (
     "Without a name: every library material with its law, valid wavelength range and source. "
     "With a name (case-insensitive; aliases such as 'fused silica' or 'glass' work): n and k at a few "
     "wavelengths. Library values describe the reference samples of their publications; films from "
-    "another process differ, so fit your own films and verify against traceable reference samples."
+    "another process differ, and results computed with them are model-dependent: fit your own films, "
+    "verify against traceable reference samples, and let local procedures and qualified staff decide "
+    "what a result means for a wafer or a part."
 )
 EXAMPLE = ("  lamina materials\n"
            "  lamina materials SiO2\n"
