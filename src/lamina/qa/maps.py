@@ -384,7 +384,7 @@ def dask_client(workers: int | None = None, scheduler: str | None = None):
             yield client
         return
     if workers is None:
-        workers = max(1, os.cpu_count() or 1)
+        workers = available_cores()
     previous = {name: os.environ.get(name) for name in WORKER_ENV}
     os.environ.update(WORKER_ENV)  # spawned workers inherit these before numpy loads
     try:
@@ -412,6 +412,14 @@ def _warm_up() -> None:
     import lmfit  # noqa: F401
     import lamina.fit.engine  # noqa: F401
     import lamina.optics.solver  # noqa: F401
+
+
+def available_cores() -> int:
+    """Cores this process may run on (respects CPU affinity, e.g. in containers and batch jobs)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except AttributeError:  # not on Linux
+        return max(1, os.cpu_count() or 1)
 
 
 def _chunks(indices: list[int], size: int) -> list[list[int]]:
