@@ -120,20 +120,24 @@ def averaged_solve(n_media_at: Callable, thickness_nm, coherent, wavelength_nm, 
                                "instrument.angle_spread_deg", "nominal angle + 3 sigma below 90 degrees")
     scales = np.maximum(1.0 + d_scale, 0.0)
 
-    # node axes lead: (n_wl, n_ang, n_scale, *batch, A, W)
-    lead = 3
+    # One pass per (wavelength node, angle node); the thickness-scale nodes form
+    # a leading axis: arrays (n_scale, *batch, A, W).  Looping over the node
+    # pairs bounds the memory when several effects are on (nodes^3 evaluations).
     pad = (1,) * batch_ndim
-    k0 = (2.0 * np.pi / sampled_wl).reshape((d_wl.size, 1, 1) + pad + (1, wavelength.size))
-    angle_nodes = np.radians(angles).reshape((1, d_ang.size, 1) + pad + (angles.shape[1], 1))
-    scale_nodes = scales.reshape((1, 1, d_scale.size) + pad + (1, 1))
-    n_nodes = [n if n.ndim == len(shape) + lead else n.reshape((1,) * (lead + len(shape) - n.ndim) + n.shape)
-               for n in n_sampled]
+    scale_nodes = scales.reshape((d_scale.size,) + pad + (1, 1))
     d_nodes = [d * scale_nodes if c else d for d, c in zip(d_full, coherent)]
-
-    raw = raw_response(n_nodes, d_nodes, coherent, k0, np.sin(angle_nodes), np.cos(angle_nodes))
-    weights = (w_wl[:, None, None] * w_ang[None, :, None] * w_scale[None, None, :]).reshape(
-        (d_wl.size, d_ang.size, d_scale.size) + (1,) * len(shape))
-    mean = _weighted_mean(raw, weights, shape, centre=(d_wl.size // 2, d_ang.size // 2, d_scale.size // 2))
+    scale_weights = w_scale.reshape((d_scale.size,) + (1,) * len(shape))
+    centre = (d_wl.size // 2, d_ang.size // 2, d_scale.size // 2)
+    mean = None
+    for i_wl in range(d_wl.size):
+        n_nodes = n_full if d_wl.size == 1 else [n[i_wl] for n in n_sampled]
+        k0 = 2.0 * np.pi / sampled_wl[i_wl]
+        for i_ang in range(d_ang.size):
+            theta = np.radians(angles[i_ang])[:, None]
+            raw = raw_response(n_nodes, d_nodes, coherent, k0, np.sin(theta), np.cos(theta))
+            weight = w_wl[i_wl] * w_ang[i_ang]
+            mean = _accumulate(mean, raw, weight * scale_weights, shape,
+                               centre[2] if (i_wl, i_ang) == centre[:2] else None)
     out = finish(mean, np.sin(angle_rad), n_full[0] * n_full[0], shape)
     normal = angle_rad[:, 0] == 0.0
     if pseudo_dielectric and np.any(normal):
@@ -146,7 +150,7 @@ def averaged_solve(n_media_at: Callable, thickness_nm, coherent, wavelength_nm, 
 
 
 def _indices_at(n_media_at, sampled_wl, batch_ndim):
-    """Indices at the sampled wavelengths as (n_wl, 1, 1, *batch, 1, W)."""
+    """Indices at the sampled wavelengths as (n_wl, *batch, 1, W)."""
     n_wl, width = sampled_wl.shape
     try:
         n_flat = n_media_at(sampled_wl.reshape(-1))
@@ -163,18 +167,24 @@ def _indices_at(n_media_at, sampled_wl, batch_ndim):
         n = n.reshape(own_batch + (n_wl, width))
         n = np.moveaxis(n, -2, 0)  # (n_wl, *own_batch, W)
         pad = (1,) * (batch_ndim - len(own_batch))
-        out.append(n.reshape((n_wl, 1, 1) + pad + own_batch + (1, width)))
+        out.append(n.reshape((n_wl,) + pad + own_batch + (1, width)))
     return out
 
 
-def _weighted_mean(raw: RawResponse, weights, shape, centre) -> RawResponse:
-    def mean(values):
-        return np.sum(np.broadcast_to(values, weights.shape[:3] + shape) * weights, axis=(0, 1, 2))
+def _accumulate(mean: RawResponse | None, raw: RawResponse, weights, shape, centre) -> RawResponse:
+    """Add the weighted scale-node sum of `raw` to `mean`; keep amplitudes of the nominal node."""
+    full = weights.shape[:1] + shape
 
-    def nominal(values):
-        values = np.broadcast_to(values, weights.shape[:3] + shape)
-        return values[centre]
+    def weighted(values):
+        return np.sum(np.broadcast_to(values, full) * weights, axis=0)
 
-    return RawResponse(rs=nominal(raw.rs), rp=nominal(raw.rp), ts=nominal(raw.ts), tp=nominal(raw.tp),
-                       rs2=mean(raw.rs2), rp2=mean(raw.rp2), cross=mean(raw.cross),
-                       Ts=mean(raw.Ts), Tp=mean(raw.Tp))
+    part = {key: weighted(getattr(raw, key)) for key in ("rs2", "rp2", "cross", "Ts", "Tp")}
+    if mean is None:
+        mean = RawResponse(rs=None, rp=None, ts=None, tp=None, **part)
+    else:
+        for key, value in part.items():
+            setattr(mean, key, getattr(mean, key) + value)
+    if centre is not None:
+        for key in ("rs", "rp", "ts", "tp"):
+            setattr(mean, key, np.broadcast_to(getattr(raw, key), full)[centre])
+    return mean
