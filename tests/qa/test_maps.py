@@ -212,3 +212,10 @@ def test_a_site_off_the_wafer_is_bad_input(synthetic):
     with pytest.raises(LaminaInputError, match="off a 100 mm wafer"):
         maps.check_on_wafer(dataset, WaferGeometry(100.0, 0.0))
     maps.check_on_wafer(dataset, GEOMETRY)
+
+
+def test_an_unreachable_scheduler_is_bad_input():
+    # port 1 on the loopback: nothing listens there (common practice for a closed port)
+    with pytest.raises(LaminaInputError, match="cannot reach the dask scheduler"):
+        with maps.dask_client(scheduler="tcp://127.0.0.1:1", connect_timeout="1s"):
+            pass

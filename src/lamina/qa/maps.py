@@ -365,7 +365,7 @@ def _single_thread_blas():
 
 
 @contextlib.contextmanager
-def dask_client(workers: int | None = None, scheduler: str | None = None):
+def dask_client(workers: int | None = None, scheduler: str | None = None, connect_timeout: str = "10s"):
     """A dask.distributed Client: to `scheduler` if given, else on a new LocalCluster.
 
     The local cluster has `workers` single-threaded worker processes (default:
@@ -375,8 +375,8 @@ def dask_client(workers: int | None = None, scheduler: str | None = None):
     from distributed import Client, LocalCluster
     if scheduler:
         try:
-            client = Client(scheduler, timeout="10s")
-        except (OSError, TimeoutError, ValueError) as exc:
+            client = Client(scheduler, timeout=connect_timeout)
+        except (OSError, TimeoutError, ValueError, TypeError) as exc:
             raise LaminaInputError(f"cannot reach the dask scheduler: {exc}", f"--scheduler {scheduler}",
                                    "the address of a running dask.distributed scheduler, e.g. tcp://host:8786") \
                 from None
@@ -472,7 +472,10 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
                          for wafer, i in references.items()}
     seeds = {}
     for wafer, future in reference_futures.items():
-        outcome, seed = future.result()
+        try:
+            outcome, seed = future.result()
+        except Exception as exc:  # a lost worker, not a bad site: record it, fit the rest from the model
+            outcome, seed = _failed(references[wafer], f"task failed on the cluster: {exc}"), None
         outcome["reference"] = True
         outcomes[outcome["index"]] = outcome
         tick(1)
@@ -480,19 +483,19 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
 
     # 2. the other sites in chunks, seeded from their wafer's reference
     size = chunk_size or choose_chunk_size(n_sites, _workers_of(client))
-    futures = []
+    futures = {}
     for wafer, seed in seeds.items():
         todo = [i for i in range(n_sites) if wafers[i] == wafer and outcomes[i] is None]
         for chunk in _chunks(todo, size):
-            futures.append(client.submit(fit_chunk, seed, dataset.isel(site=chunk), chunk, site_fit, False,
-                                         pure=False))
+            futures[client.submit(fit_chunk, seed, dataset.isel(site=chunk), chunk, site_fit, False,
+                                  pure=False)] = chunk
     _collect(futures, outcomes, tick, as_completed)
 
     # 3. outliers again with the global search, from the model's own start
     again = outlier_sites(outcomes)
     if again:
-        futures = [client.submit(fit_chunk, model, dataset.isel(site=chunk), chunk, site_fit, True, pure=False)
-                   for chunk in _chunks(again, size)]
+        futures = {client.submit(fit_chunk, model, dataset.isel(site=chunk), chunk, site_fit, True, pure=False): chunk
+                   for chunk in _chunks(again, size)}
         retried: list[dict | None] = [None] * n_sites
         _collect(futures, retried, lambda n: None, as_completed)
         for i in again:
@@ -508,9 +511,13 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
     return outcomes
 
 
-def _collect(futures, outcomes, tick, as_completed) -> None:
-    for future in as_completed(futures):
-        chunk_outcomes = future.result()
+def _collect(futures: dict, outcomes, tick, as_completed) -> None:
+    """Outcomes of finished chunk tasks into `outcomes`; a task lost on the cluster fails its sites."""
+    for future in as_completed(list(futures)):
+        try:
+            chunk_outcomes = future.result()
+        except Exception as exc:  # e.g. a worker killed mid-task: its sites fail, the map goes on
+            chunk_outcomes = [_failed(i, f"task failed on the cluster: {exc}") for i in futures[future]]
         for outcome in chunk_outcomes:
             outcomes[outcome["index"]] = outcome
         tick(len(chunk_outcomes))
