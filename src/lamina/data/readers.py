@@ -83,6 +83,7 @@ def read_csv_text(path: str | os.PathLike) -> CsvText:
     rows: list[list[str]] = []
     lines: list[int] = []
     last_key: list[str | None] = [None]
+    data_lines: list[str] = []
     for number, line in enumerate(text.splitlines(), start=1):
         stripped = line.strip()
         if not stripped:
@@ -90,15 +91,20 @@ def read_csv_text(path: str | os.PathLike) -> CsvText:
         if stripped.startswith("#"):
             _add_metadata(metadata, stripped[1:], last_key)
             continue
-        cells = next(csv.reader([line]))
         if header is None:
-            header, header_line = [c.strip() for c in cells], number
+            header, header_line = [c.strip() for c in next(csv.reader([line]))], number
             continue
-        if len(cells) != len(header):
-            raise LaminaInputError(f"{len(cells)} fields where the header has {len(header)}", f"{label}:{number}",
-                                   "one value per header column, separated by commas")
-        rows.append(cells)
+        data_lines.append(line)
         lines.append(number)
+    if header is not None:
+        # one csv.reader over all rows (quotes allowed), then one count check
+        rows = list(csv.reader(data_lines))
+        widths = np.fromiter((len(r) for r in rows), dtype=int, count=len(rows))
+        ragged = np.flatnonzero(widths != len(header))
+        if ragged.size:
+            first = int(ragged[0])
+            raise LaminaInputError(f"{widths[first]} fields where the header has {len(header)}",
+                                   f"{label}:{lines[first]}", "one value per header column, separated by commas")
     if header is None:
         raise LaminaInputError("no header row", label, "a header row naming the columns, e.g. "
                                "wavelength_nm,angle_deg,psi_deg,delta_deg")
@@ -199,9 +205,12 @@ def _check_header(csv_text: CsvText, extra_columns: Sequence[str]) -> dict[str, 
 
 def _to_numbers(cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Float values and a mask of cells that are not finite numbers (empty, text, NaN, inf)."""
-    import pandas as pd
+    try:  # fast path: numpy parses every cell (surrounding spaces, nan and inf included)
+        numbers = np.asarray(cells, dtype=str).astype(float)
+    except ValueError:  # some cell is not a number: parse cell by cell, bad ones become NaN
+        import pandas as pd
 
-    numbers = pd.to_numeric(pd.Series(cells, dtype=object).str.strip(), errors="coerce").to_numpy(dtype=float)
+        numbers = pd.to_numeric(pd.Series(cells, dtype=object).str.strip(), errors="coerce").to_numpy(dtype=float)
     return numbers, ~np.isfinite(numbers)
 
 
