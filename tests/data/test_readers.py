@@ -161,6 +161,7 @@ BAD = {
     "negative wavelength": ("wavelength_nm,R\n-500,0.2\n", ":2: column 1 (wavelength_nm)", "positive"),
     "header only": ("wavelength_nm,R\n", ":1", "at least one data row"),
     "both abscissae": ("wavelength_nm,energy_ev,R\n500,2.48,0.2\n", ":1", "exactly one of"),
+    "no header": ("500,70,20,100\n600,70,21,101\n", ":1", "a header row"),
     "column twice": ("wavelength_nm,R,R\n500,0.2,0.2\n", ":1", "each column once"),
 }
 

@@ -177,6 +177,9 @@ def _check_header(csv_text: CsvText, extra_columns: Sequence[str]) -> dict[str, 
     if len(header) == 1 and any(sep in header[0] for sep in (";", "\t")):
         raise LaminaInputError("the header is one column: the columns seem separated by ';' or tabs", where,
                                "columns separated by commas (and '.' as the decimal point)")
+    if all(_is_number(name) for name in header):
+        raise LaminaInputError("the first row holds numbers: the header row is missing", where,
+                               "a header row naming the columns, e.g. wavelength_nm,angle_deg,psi_deg,delta_deg")
     for index, name in enumerate(header):
         if name not in accepted:
             hint = None
@@ -201,6 +204,14 @@ def _check_header(csv_text: CsvText, extra_columns: Sequence[str]) -> dict[str, 
             raise LaminaInputError(f"column '{err_col}' without column '{VARIABLES[q][0]}'", where,
                                    f"an uncertainty column next to its quantity {VARIABLES[q][0]}")
     return positions
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
 
 
 def _to_numbers(cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
