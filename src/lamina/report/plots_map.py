@@ -44,21 +44,32 @@ def _label(name: str, unit: str) -> str:
 
 
 def _interpolate(x_mm, y_mm, values, geometry: WaferGeometry, points: int = 161):
-    """Values on a square grid over the wafer: linear inside the sites' hull, nearest outside it."""
-    from scipy.interpolate import griddata
+    """Values on a square grid over the wafer, masked outside it.
+
+    A thin-plate spline through the sites (scipy RBFInterpolator; local, with the
+    nearest 64 sites, on long maps) gives a smooth surface that also reaches the
+    wafer edge beyond the outermost sites; with fewer than 3 sites, or sites on one
+    line, each point takes its nearest site's value.
+    """
+    from scipy.interpolate import NearestNDInterpolator, RBFInterpolator
     radius = geometry.radius_mm
     axis = np.linspace(-radius, radius, points)
     grid_x, grid_y = np.meshgrid(axis, axis)
     sites = np.column_stack([x_mm, y_mm])
-    nearest = griddata(sites, values, (grid_x, grid_y), method="nearest")
-    if len(values) >= 4:
+    targets = np.column_stack([grid_x.ravel(), grid_y.ravel()])
+    surface = None
+    if len(values) >= 3:
         try:
-            linear = griddata(sites, values, (grid_x, grid_y), method="linear")
-            nearest = np.where(np.isfinite(linear), linear, nearest)
-        except Exception:  # collinear sites (a line scan): nearest only; scipy raises QhullError
-            pass
+            spline = RBFInterpolator(sites, values, kernel="thin_plate_spline",
+                                     neighbors=64 if len(values) > 200 else None)
+            surface = spline(targets)
+        except (np.linalg.LinAlgError, ValueError):  # collinear or repeated sites
+            surface = None
+    if surface is None:
+        surface = NearestNDInterpolator(sites, values)(targets)
+    surface = surface.reshape(grid_x.shape)
     outside = np.hypot(grid_x, grid_y) > radius
-    return grid_x, grid_y, np.ma.masked_where(outside, nearest)
+    return grid_x, grid_y, np.ma.masked_where(outside, surface)
 
 
 def wafer_map(path, results, name: str, geometry: WaferGeometry, unit: str = "", title: str = "",
@@ -115,8 +126,10 @@ def _mark_sites(ax, x_mm, y_mm, values, fitted, in_zone, results) -> None:
         digits = _digits(values[fitted])
         for x, y, value, ok in zip(x_mm, y_mm, values, fitted):
             text = f"{value:.{digits}f}" if ok else "failed"
-            ax.annotate(text, (x, y), xytext=(0, 5), textcoords="offset points", ha="center", fontsize=6,
-                        color=INK if ok else FAIL_COLOUR, zorder=5)
+            ax.annotate(text, (x, y), xytext=(0, 5), textcoords="offset points", ha="center", va="bottom",
+                        fontsize=6, color=INK if ok else FAIL_COLOUR, zorder=5,
+                        bbox={"boxstyle": "round,pad=0.12", "facecolor": "white", "edgecolor": "none",
+                              "alpha": 0.7})
 
 
 def _digits(values) -> int:
@@ -210,6 +223,7 @@ def trend(path, summary: dict, name: str, unit: str = "", limits: tuple[float, f
             if math.isfinite(bound):
                 ax.axhline(bound, color=LIMIT_COLOUR, linewidth=1.2, linestyle=(0, (4, 3)))
     ax.set_xticks(position)
+    ax.set_xlim(-0.6, len(labels) - 0.4)
     ax.set_xticklabels(labels, rotation=45 if len(labels) > 8 else 0, fontsize=8)
     ax.set_xlabel("wafer")
     ax.set_ylabel(_label(name, unit))
