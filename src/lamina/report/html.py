@@ -21,6 +21,7 @@ from __future__ import annotations
 import base64
 import csv
 import datetime as _dt
+import functools
 import json
 import math
 import os
@@ -535,7 +536,7 @@ def _sensitivity(raw: Any) -> dict | None:
     raw_layers = raw.get("layers") if isinstance(raw, dict) else None
     if not isinstance(raw_layers, dict) or not all(isinstance(v, dict) for v in raw_layers.values()):
         return {"rows": [], "notes": [], "generic": raw}
-    ranking = [str(n) for n in _list(raw.get("ranking")) if n in raw_layers]
+    ranking = [n for n in _list(raw.get("ranking")) if isinstance(n, str) and n in raw_layers]
     order = ranking + [n for n in raw_layers if n not in ranking]
     rows = []
     for name in order:
@@ -777,7 +778,9 @@ def _now_utc() -> str:
     return _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC")
 
 
+@functools.lru_cache(maxsize=1)
 def _environment():
+    """The jinja2 environment, built once per process (compiling the templates is the slow part)."""
     import jinja2
     env = jinja2.Environment(
         loader=jinja2.FileSystemLoader(str(Path(__file__).parent / "templates")),
