@@ -39,3 +39,9 @@ def test_broken_json_exits_2_naming_the_place(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "summary.json:1:" in err and "invalid JSON" in err
     assert not (tmp_path / "report.html").exists()
+
+
+def test_a_file_instead_of_a_folder_exits_2(tmp_path, capsys):
+    (tmp_path / "result.json").write_text("{}")
+    assert main(["report", str(tmp_path / "result.json")]) == 2
+    assert "is a file, not a folder" in capsys.readouterr().err

@@ -68,7 +68,8 @@ def build_context(outdir: str | os.PathLike) -> dict:
     """Everything the template needs, read from the files in `outdir`."""
     folder = Path(outdir)
     if not folder.is_dir():
-        raise LaminaInputError("no such folder", str(folder), "an output folder written by lamina fit, map or check")
+        problem = "is a file, not a folder" if folder.exists() else "no such folder"
+        raise LaminaInputError(problem, str(folder), "an output folder written by lamina fit, map or check")
     jobs = find_jobs(folder)
     if not jobs:
         raise LaminaInputError(
