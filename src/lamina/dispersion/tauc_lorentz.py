@@ -39,7 +39,7 @@ MIN_BROADENING_EV = 1e-6
 #: per-oscillator parameters of the Tauc-Lorentz law
 TL_OSCILLATOR_SPECS = {
     "amplitude_ev": ParamSpec("amplitude_ev", "eV", 0.0, math.inf, "oscillator amplitude A"),
-    "center_ev": ParamSpec("center_ev", "eV", MIN_BROADENING_EV / 2, math.inf,
+    "center_ev": ParamSpec("center_ev", "eV", MIN_BROADENING_EV, math.inf,
                            "peak-transition energy E0"),
     "broadening_ev": ParamSpec("broadening_ev", "eV", MIN_BROADENING_EV, math.inf,
                                "broadening C (must stay below 2 x center_ev)"),
