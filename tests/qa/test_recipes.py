@@ -152,3 +152,28 @@ def test_wilson_interval_matches_scipy(successes, trials):
     assert wilson_interval(successes, trials) == pytest.approx((ref.low, ref.high), abs=1e-12)
     if (successes, trials) == (81, 263):
         assert wilson_interval(81, 263) == pytest.approx((0.2553, 0.3662), abs=5e-5)
+
+
+from hypothesis import given, strategies as st  # noqa: E402
+
+finite = st.floats(min_value=-1e3, max_value=1e3, allow_nan=False)
+
+
+@given(low=st.one_of(st.none(), finite), width=st.floats(min_value=0, max_value=1e3), value=finite,
+       has_max=st.booleans())
+def test_margin_sign_means_inside(low, width, value, has_max):
+    # common practice: a value is in spec when min <= value <= max; the margin is its distance to the
+    # nearest limit, positive inside
+    high = (low if low is not None else 0.0) + width if has_max else None
+    if low is None and high is None:
+        return
+    band = Band("p", "R", (400.0, 500.0), min=low, max=high)
+    margin = float(band.margin([value])[0])
+    inside = (low is None or value >= low) and (high is None or value <= high)
+    assert (margin >= 0) == inside
+    limits = [x for x in (low, high) if x is not None]
+    if inside:  # distance to the nearer limit
+        assert margin == pytest.approx(min(abs(value - x) for x in limits), abs=1e-9)
+    else:  # minus the distance to the violated limit (only one can be violated when min <= max)
+        violated = low if (low is not None and value < low) else high
+        assert margin == pytest.approx(-abs(value - violated), abs=1e-9)
