@@ -43,11 +43,11 @@ def _label(name: str, unit: str) -> str:
     return f"{name} [{unit}]" if unit else name
 
 
-def _interpolate(x_mm, y_mm, values, geometry: WaferGeometry, points: int = 161):
+def _interpolate(x_mm, y_mm, values, geometry: WaferGeometry, points: int = 121):
     """Values on a square grid over the wafer, masked outside it.
 
     A thin-plate spline through the sites (scipy RBFInterpolator; local, with the
-    nearest 64 sites, on long maps) gives a smooth surface that also reaches the
+    nearest 64 sites, on maps of over 1500 sites) gives a smooth surface that also reaches the
     wafer edge beyond the outermost sites; with fewer than 3 sites, or sites on one
     line, each point takes its nearest site's value.
     """
@@ -56,20 +56,22 @@ def _interpolate(x_mm, y_mm, values, geometry: WaferGeometry, points: int = 161)
     axis = np.linspace(-radius, radius, points)
     grid_x, grid_y = np.meshgrid(axis, axis)
     sites = np.column_stack([x_mm, y_mm])
-    targets = np.column_stack([grid_x.ravel(), grid_y.ravel()])
+    # evaluate only on the wafer (a little beyond its edge, so contours reach the outline)
+    inside = np.hypot(grid_x, grid_y) <= radius * 1.02
+    targets = np.column_stack([grid_x[inside], grid_y[inside]])
     surface = None
     if len(values) >= 3:
         try:
             spline = RBFInterpolator(sites, values, kernel="thin_plate_spline",
-                                     neighbors=64 if len(values) > 200 else None)
+                                     neighbors=64 if len(values) > 1500 else None)
             surface = spline(targets)
         except (np.linalg.LinAlgError, ValueError):  # collinear or repeated sites
             surface = None
     if surface is None:
         surface = NearestNDInterpolator(sites, values)(targets)
-    surface = surface.reshape(grid_x.shape)
-    outside = np.hypot(grid_x, grid_y) > radius
-    return grid_x, grid_y, np.ma.masked_where(outside, surface)
+    grid = np.full(grid_x.shape, np.nan)
+    grid[inside] = surface
+    return grid_x, grid_y, np.ma.masked_invalid(grid)
 
 
 def wafer_map(path, results, name: str, geometry: WaferGeometry, unit: str = "", title: str = "",
