@@ -8,12 +8,12 @@ from pathlib import Path
 
 HELP = "check a coating recipe against target spectral bands"
 DESCRIPTION = (
-    "Check a coating recipe (a model file with nominal thicknesses) against a target file: "
-    "the design spectrum against every band and the colour, the thickness sensitivity of each "
-    "layer, the Monte Carlo yield under the given tolerances, and (with --measured) a measured "
-    "part against the bands with a diagnosis of which layer drifted. Results are model-dependent: "
-    "verify against traceable reference samples; release decisions follow local procedures and "
-    "qualified staff."
+    "Check a coating recipe (a model file with nominal thicknesses) against a target file:\n"
+    "the design spectrum against every band and the colour, the thickness sensitivity of\n"
+    "each layer, the Monte Carlo yield under the given tolerances, and (with --measured) a\n"
+    "measured part against the bands with a diagnosis of which layer drifted.\n\n"
+    "Results are model-dependent: verify against traceable reference samples; release\n"
+    "decisions follow local procedures and are made by qualified staff."
 )
 EXAMPLE = ("  lamina check sample_data/coatings/ar4_recipe.toml --target sample_data/coatings/ar4_target.toml \\\n"
            "      --tolerances sample_data/coatings/ar4_tolerances.toml "
