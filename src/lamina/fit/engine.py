@@ -135,7 +135,7 @@ def summarize(problem, best: LocalOutcome, stack, samples, max_reduced_chi2, mod
     for i in undetermined:
         warnings.append(f"{table.free[i]} is not determined by the data (no sensitivity or fully "
                         "correlated); its uncertainty is unknown")
-    statistics = _statistics(problem, x, chi2, reduced)
+    statistics = _statistics(problem, residuals, chi2, reduced)
     converged, message = _verdict(best, reduced, dof, max_reduced_chi2, problem.trusted_errors, scaled,
                                   search_info)
     _chi2_warning(reduced, problem.trusted_errors, warnings)
@@ -193,16 +193,11 @@ def _correlation_entries(names, corr, warnings) -> dict:
     return out
 
 
-def _statistics(problem, x, chi2, reduced) -> dict:
-    model = problem.model(x)[0]
+def _statistics(problem, residuals, chi2, reduced) -> dict:
+    # raw differences back from the weighted residuals (model - data = r * sigma, Delta already wrapped)
+    diff = residuals * problem.sigma
+    code = np.concatenate([block.quantity_code for block in problem.blocks])
     rms: dict = {}
-    start = 0
-    diffs, codes = [], []
-    for block in problem.blocks:
-        diffs.append(block.raw_residuals(model[start:start + block.n_points]))
-        codes.append(block.quantity_code)
-        start += block.n_points
-    diff, code = np.concatenate(diffs), np.concatenate(codes)
     for k, q in enumerate(QUANTITIES):
         sel = code == k
         if sel.any():
