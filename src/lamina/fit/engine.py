@@ -221,11 +221,11 @@ def _verdict(best, reduced, dof, max_reduced_chi2, trusted, scaled, search_info)
         parts.append(f"global search over {', '.join(search_info.get('scanned', [])) or 'bounded parameters'} "
                      f"({search_info.get('mode', 'evolution')}, {search_info.get('points', 0)} points)")
     if trusted:
-        parts.append("uncertainties from the covariance with the data's own sigmas (not scaled by "
-                     "reduced chi-square)")
+        parts.append("uncertainties from the covariance with the data's own sigmas, not scaled by "
+                     "reduced chi-square (the stated errors are trusted; reduced chi-square tests the model)")
     elif scaled:
         parts.append("default sigmas assumed (no _err columns): covariance scaled by reduced chi-square "
-                     f"{reduced:.4g}")
+                     f"{reduced:.4g}, since the true noise level is unknown")
     else:
         parts.append("no degrees of freedom left: uncertainties not scaled")
     return converged, "; ".join(parts)
@@ -323,7 +323,8 @@ def _fitted_materials(problem, fitted_stack, fitted_samples) -> dict:
         for owner in owners:
             own = sample is not None and any(k.startswith(owner + ".material.") for k in sample.overrides)
             label = f"{block.sample}.{owner}" if own else owner
-            out[label] = (media.get(owner), block.wavelength_nm)
+            seen = out.get(label, (None, np.empty(0)))[1]
+            out[label] = (media.get(owner), np.concatenate([seen, block.wavelength_nm]))
     return out
 
 

@@ -110,7 +110,8 @@ def write_fit_plots(result, outdir) -> list[Path]:
         start += size
         source = str(model_ds.attrs.get("source_file", ""))
         sample = str(model_ds.attrs.get("sample", ""))
-        title = f"{sample}: {Path(source).name}" if sample and source else (source or sample)
+        name = Path(source).name if source else ""
+        title = f"{sample}: {name}" if sample and name and sample != Path(source).stem else (name or sample)
         fig = spectra_figure(points, model_ds, title)
         written.append(_save(fig, outdir / f"spectra_{k}_{_slug(source or sample)}.png"))
         plt.close(fig)
