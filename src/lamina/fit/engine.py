@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -328,4 +328,4 @@ def _fitted_materials(problem, fitted_stack, fitted_samples) -> dict:
     return out
 
 
-__all__ = ["fit", "local_fit", "DEFAULT_MAX_REDUCED_CHI2", "replace"]
+__all__ = ["fit", "local_fit", "summarize", "DEFAULT_MAX_REDUCED_CHI2"]

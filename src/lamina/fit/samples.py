@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 from typing import Mapping
 
 from ..errors import LaminaInputError
-from ..parameters import Param, as_param
+from ..parameters import as_param
 from ..stack.layers import LAYER_NAME
 from .objective import make_block
 from .parameters import ParameterTable
@@ -188,4 +188,4 @@ def _instrument(stack):
     return Instrument(**raw)
 
 
-__all__ = ["Sample", "parse_samples", "assign_data", "build", "Param"]
+__all__ = ["Sample", "parse_samples", "assign_data", "build"]
