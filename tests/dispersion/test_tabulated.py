@@ -78,3 +78,11 @@ def test_csv_errors_name_file_and_line(tmp_path):
     with pytest.raises(LaminaInputError):
         from_toml({"law": "table", "file": str(path), "n": [1, 2]}, "film.material")
     assert path.read_text() == before   # input files are never changed
+
+
+def test_no_silent_clamping_on_the_energy_path():
+    # epsilon_ev (used by mixtures and the optics) refuses energies outside the table too
+    law = Table(WL, N, K, name="film-nk")
+    with pytest.raises(LaminaInputError):
+        law.epsilon_ev(np.array([HC_EV_NM / 1000.0]))
+    np.testing.assert_allclose(law.epsilon_ev(np.array([HC_EV_NM / 500.0])), (1.55 + 0.02j) ** 2)

@@ -160,6 +160,12 @@ class Table(Dispersion):
         super().__init__({}, {}, **meta)
 
     def _epsilon(self, photon_energy_ev, p):
+        # no clamping at the table ends, whichever way the law is called (components of
+        # mixtures are evaluated in photon energy, past Dispersion.epsilon's range check)
+        energy = np.asarray(photon_energy_ev, dtype=float)
+        if energy.size:
+            with np.errstate(divide="ignore"):
+                self.check_range(HC_EV_NM / energy)
         n_complex = interpolate_nk(photon_energy_ev, self._energy_ev, self.n_values[::-1], self.k_values[::-1])
         return n_complex * n_complex
 
