@@ -46,11 +46,9 @@ def test_round_trip_through_toml_text(law):
     np.testing.assert_allclose(again.epsilon(wl), original.epsilon(wl), rtol=1e-14)
 
 
-@pytest.mark.parametrize("law", sorted(TABLES))
+@pytest.mark.parametrize("law", sorted(set(TABLES) - {"table"}))   # the table law has no parameters
 def test_with_values_survives_the_round_trip(law):
     original = from_toml(TABLES[law], "film.material")
-    if not original.params:
-        pytest.skip("no parameters")
     key = next(iter(original.params))
     spec = original.specs[key]
     value = original.params[key].value
