@@ -345,6 +345,24 @@ def table_to_dataset(table: Table, rows: np.ndarray | None = None, attrs: dict |
     """
     import xarray as xr
 
+    an_axis, wl_axis, grids = grid_rows(table, rows)
+    data_vars = {name: (("angle", "wavelength"), grid, variable_attrs(name)) for name, grid in grids.items()}
+    ds = xr.Dataset(data_vars, coords=coordinates(an_axis, wl_axis))
+    ds.attrs = {"source_file": table.label, "sha256": table.sha256}
+    ds.attrs.update(table.metadata)
+    if table.abscissa == "energy_ev":
+        ds.attrs["abscissa_in_file"] = "energy_ev (converted to wavelength_nm = 1239.841984 / energy_ev)"
+    ds.attrs.update(attrs or {})
+    return ds
+
+
+def grid_rows(table: Table, rows: np.ndarray | None = None):
+    """(angle axis, wavelength axis, {variable: (A, W) array, NaN where not given}) of the selected rows.
+
+    The numpy core of `table_to_dataset`, for callers that grid many row sets (the
+    wafer-map reader, one set per site) and build one Dataset at the end.
+    Raises on a (wavelength, angle) point given twice, naming both lines.
+    """
     rows = np.arange(len(table.lines)) if rows is None else np.asarray(rows)
     if rows.dtype == bool:
         rows = np.flatnonzero(rows)
@@ -353,18 +371,12 @@ def table_to_dataset(table: Table, rows: np.ndarray | None = None, attrs: dict |
     _check_duplicates(table, rows, wavelength, angle)
     wl_axis, wl_index = np.unique(wavelength, return_inverse=True)
     an_axis, an_index = np.unique(angle, return_inverse=True)
-    data_vars = {}
+    grids = {}
     for name in table.variables:
         grid = np.full((an_axis.size, wl_axis.size), np.nan)
         grid[an_index, wl_index] = table.values[name][rows]
-        data_vars[name] = (("angle", "wavelength"), grid, variable_attrs(name))
-    ds = xr.Dataset(data_vars, coords=coordinates(an_axis, wl_axis))
-    ds.attrs = {"source_file": table.label, "sha256": table.sha256}
-    ds.attrs.update(table.metadata)
-    if table.abscissa == "energy_ev":
-        ds.attrs["abscissa_in_file"] = "energy_ev (converted to wavelength_nm = 1239.841984 / energy_ev)"
-    ds.attrs.update(attrs or {})
-    return ds
+        grids[name] = grid
+    return an_axis, wl_axis, grids
 
 
 def _check_duplicates(table: Table, rows: np.ndarray, wavelength: np.ndarray, angle: np.ndarray) -> None:

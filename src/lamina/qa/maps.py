@@ -139,28 +139,41 @@ def _group_rows(table, label: str, has_wafer: bool):
             x_mm[firsts], y_mm[firsts])
 
 
-def _site_dataset(table, rows: np.ndarray, label: str, site: str):
-    """One site's rows on its grid, or the reason the site cannot be read."""
-    from ..data.readers import table_to_dataset
+class _SiteGrid:
+    """One site's measurement on its own (angle, wavelength) grid: numpy only, cheap to make by the hundred."""
+
+    __slots__ = ("angle", "wavelength", "grids", "key")
+
+    def __init__(self, angle, wavelength, grids: dict):
+        self.angle = np.asarray(angle, dtype=float)
+        self.wavelength = np.asarray(wavelength, dtype=float)
+        self.grids = grids
+        # what must agree between sites: angles, wavelengths, quantities and the measured pattern
+        names = tuple(sorted(grids))
+        self.key = (self.angle.tobytes(), self.wavelength.tobytes(), names,
+                    tuple(np.isfinite(grids[name]).tobytes() for name in names))
+
+    @classmethod
+    def of_dataset(cls, data: xr.Dataset) -> "_SiteGrid":
+        return cls(data["angle"].values, data["wavelength"].values,
+                   {str(name): np.asarray(data[name].values, dtype=float) for name in data.data_vars})
+
+
+def _site_grid(table, rows: np.ndarray, site: str):
+    """One site's rows on its grid (the reader's grid_rows), or the reason the site cannot be read."""
+    from ..data.readers import grid_rows
     bad = [int(r) for r in rows if int(r) in table.problems]
     if bad:
         return None, f"site '{site}': {table.problems[bad[0]]}"
     try:
-        return table_to_dataset(table, rows), ""
+        return _SiteGrid(*grid_rows(table, rows)), ""
     except LaminaInputError as exc:
         return None, f"site '{site}': {exc}"
 
 
-def _grid_key(data: xr.Dataset) -> tuple:
-    """What must agree between sites: angles, wavelengths, variables and the measured pattern."""
-    pattern = tuple(np.isfinite(data[name].values).tobytes() for name in sorted(data.data_vars))
-    return (data["angle"].values.tobytes(), data["wavelength"].values.tobytes(),
-            tuple(sorted(data.data_vars)), pattern)
-
-
 def _read_map_csv(path: Path) -> xr.Dataset:
-    """CSV map via the measurement reader's steps (read_csv_text, parse_table, table_to_dataset)."""
-    from ..data.readers import parse_table, read_csv_text
+    """CSV map via the measurement reader's steps (read_csv_text, parse_table, grid_rows, table_to_dataset)."""
+    from ..data.readers import parse_table, read_csv_text, table_to_dataset
     csv_text = read_csv_text(path)
     label = str(path)
     for name in SITE_COLUMNS:
@@ -174,40 +187,43 @@ def _read_map_csv(path: Path) -> xr.Dataset:
     labels, wafers, groups, x_mm, y_mm = _group_rows(table, label, has_wafer)
     parsed, problems = [], []
     for site, rows in zip(labels, groups):
-        data, problem = _site_dataset(table, rows, label, site)
-        parsed.append(data)
+        grid, problem = _site_grid(table, rows, site)
+        parsed.append(grid)
         problems.append(problem)
     where = [f"lines {table.lines[rows].min()}-{table.lines[rows].max()}" for rows in groups]
-    return _assemble(parsed, problems, labels, wafers, x_mm, y_mm, has_wafer, where, label)
+    common = _common_grid(parsed, problems, labels, where, label)
+    # one reader-made Dataset of a good site: coordinates, units and file metadata as read_data gives them
+    template = table_to_dataset(table, groups[common])
+    return _stack_sites(template, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer)
 
 
-def _assemble(parsed, problems, labels, wafers, x_mm, y_mm, has_wafer, where, label) -> xr.Dataset:
-    """Sites on the grid most of them share; a site on another grid becomes unreadable."""
+def _common_grid(parsed: list, problems: list, labels, where, label) -> int:
+    """Index of a site on the grid most sites share; sites on another grid become unreadable (in place)."""
     counts: dict[tuple, int] = {}
-    for data in parsed:
-        if data is not None:
-            counts[_grid_key(data)] = counts.get(_grid_key(data), 0) + 1
+    for grid in parsed:
+        if grid is not None:
+            counts[grid.key] = counts.get(grid.key, 0) + 1
     if not counts:
         raise LaminaInputError(f"no site can be read (first: {problems[0]})", label,
                                "at least one site with valid measurements")
     common = max(counts, key=counts.get)
-    template = next(d for d in parsed if d is not None and _grid_key(d) == common)
-    for i, data in enumerate(parsed):
-        if data is not None and _grid_key(data) != common:
+    first = next(i for i, grid in enumerate(parsed) if grid is not None and grid.key == common)
+    shape = (parsed[first].angle.size, parsed[first].wavelength.size)
+    for i, grid in enumerate(parsed):
+        if grid is not None and grid.key != common:
             parsed[i] = None
             problems[i] = (f"site '{labels[i]}' ({where[i]}): its angles, wavelengths or measured points differ "
-                           f"from the rest of the map ({data.sizes['angle']} angles x {data.sizes['wavelength']} "
-                           f"wavelengths instead of {template.sizes['angle']} x {template.sizes['wavelength']}, "
-                           f"or points missing)")
-    return _stack_sites(template, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer)
+                           f"from the rest of the map ({grid.angle.size} angles x {grid.wavelength.size} "
+                           f"wavelengths instead of {shape[0]} x {shape[1]}, or points missing)")
+    return first
 
 
 def _stack_sites(template: xr.Dataset, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer) -> xr.Dataset:
-    """Stack per-site datasets along a new `site` dim (numpy, not xr.concat: maps are long); unreadable = NaN."""
-    blank = {name: np.full(template[name].shape, np.nan) for name in template.data_vars}
+    """Stack the site grids along a new `site` dim (numpy, not xr.concat: maps are long); unreadable = NaN."""
     data_vars = {}
     for name in template.data_vars:
-        values = np.stack([data[name].values if data is not None else blank[name] for data in parsed])
+        blank = np.full(template[name].shape, np.nan)
+        values = np.stack([grid.grids[name] if grid is not None else blank for grid in parsed])
         data_vars[name] = (("site",) + template[name].dims, values, template[name].attrs)
     stacked = xr.Dataset(data_vars, coords={
         "site": ("site", np.asarray(labels, dtype=str)),
@@ -246,17 +262,19 @@ def _read_map_netcdf(path: Path) -> xr.Dataset:
     wafers = [str(v) for v in dataset[WAFER_COLUMN].values] if has_wafer else [DEFAULT_WAFER] * n_sites
     measurements = dataset.drop_vars([name for name in ("site", "x_mm", "y_mm", WAFER_COLUMN)
                                       if name in dataset.variables])
-    parsed, problems = [], []
+    checked, problems = [], []
     for i, site in enumerate(labels):
         try:
-            parsed.append(_check_netcdf(measurements.isel(site=i), f"{label}: site '{site}'"))
+            checked.append(_check_netcdf(measurements.isel(site=i), f"{label}: site '{site}'"))
             problems.append("")
         except LaminaInputError as exc:
-            parsed.append(None)
+            checked.append(None)
             problems.append(str(exc))
+    parsed = [_SiteGrid.of_dataset(data) if data is not None else None for data in checked]
     where = [f"site index {i}" for i in range(n_sites)]
-    return _assemble(parsed, problems, labels, wafers, dataset["x_mm"].values.astype(float),
-                     dataset["y_mm"].values.astype(float), has_wafer, where, label)
+    template = checked[_common_grid(parsed, problems, labels, where, label)]
+    return _stack_sites(template, parsed, problems, labels, wafers, dataset["x_mm"].values.astype(float),
+                        dataset["y_mm"].values.astype(float), has_wafer)
 
 
 def check_on_wafer(dataset: xr.Dataset, geometry: WaferGeometry) -> None:
