@@ -70,20 +70,27 @@ def run(args) -> int:
     stack.check_range(dataset["wavelength"].values)  # a model that cannot cover the data: exit 2, no cluster
 
     bar = _progress(dataset.sizes["site"], args.quiet)
+    session = maps.MapCluster(workers=args.workers, scheduler=args.scheduler)
     try:
-        with maps.dask_client(workers=args.workers, scheduler=args.scheduler) as client:
-            outcomes = maps.fit_map(stack, dataset, client, chunk_size=args.chunk_size, progress=bar.update)
+        outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update)
+    except BaseException:
+        session.close()
+        raise
     finally:
         bar.close()
-    units = {name: spec_.unit for name, spec_ in stack.specs().items() if name in free}
-    results = maps.results_dataset(dataset, outcomes, free, geometry, spec, units)
-    summary = maps.summarize(results, free, spec)
-    summary["inputs"] = {"map": str(args.mapfile), "model": str(args.model),
-                         "spec": str(args.spec) if args.spec else None}
-    summary["exit_code"] = maps.exit_code(summary)
-    write_outputs(outdir, results, summary, free, units, geometry, spec)
-    from ..report.html import write_report
-    write_report(outdir)
+    closing = session.close_in_background()  # workers stop while the outputs are written
+    try:
+        units = {name: spec_.unit for name, spec_ in stack.specs().items() if name in free}
+        results = maps.results_dataset(dataset, outcomes, free, geometry, spec, units)
+        summary = maps.summarize(results, free, spec)
+        summary["inputs"] = {"map": str(args.mapfile), "model": str(args.model),
+                             "spec": str(args.spec) if args.spec else None}
+        summary["exit_code"] = maps.exit_code(summary)
+        write_outputs(outdir, results, summary, free, units, geometry, spec)
+        from ..report.html import write_report
+        write_report(outdir)
+    finally:
+        closing.join()
     if not args.quiet:
         _print_summary(summary, free, outdir)
     return summary["exit_code"]

@@ -382,39 +382,68 @@ def _single_thread_blas():
         yield
 
 
+class MapCluster:
+    """A dask.distributed Client: to `scheduler` if given, else on a new LocalCluster it owns.
+
+    The local cluster has `workers` single-threaded worker processes (default: one
+    per core) with OMP/BLAS threads set to 1; its HTTP port is any free one (":0"),
+    so that several maps can run side by side.  `close()` stops what was started;
+    `close_in_background()` does so in a thread (stopping worker processes takes a
+    second or two that the caller can spend writing its outputs).
+    """
+
+    def __init__(self, workers: int | None = None, scheduler: str | None = None, connect_timeout: str = "10s"):
+        from distributed import Client, LocalCluster
+        self.cluster = None
+        if scheduler:
+            try:
+                self.client = Client(scheduler, timeout=connect_timeout)
+            except (OSError, TimeoutError, ValueError, TypeError) as exc:
+                raise LaminaInputError(f"cannot reach the dask scheduler: {exc}", f"--scheduler {scheduler}",
+                                       "the address of a running dask.distributed scheduler, "
+                                       "e.g. tcp://host:8786") from None
+            return
+        previous = {name: os.environ.get(name) for name in WORKER_ENV}
+        os.environ.update(WORKER_ENV)  # spawned workers inherit these before numpy loads
+        try:
+            self.cluster = LocalCluster(n_workers=workers or available_cores(), threads_per_worker=1,
+                                        processes=True, dashboard_address=":0", silence_logs=logging.ERROR,
+                                        env=dict(WORKER_ENV))
+            self.client = Client(self.cluster)
+        except BaseException:
+            if self.cluster is not None:
+                self.cluster.close()
+            raise
+        finally:
+            for name, value in previous.items():
+                if value is None:
+                    os.environ.pop(name, None)
+                else:
+                    os.environ[name] = value
+
+    def close(self) -> None:
+        self.client.close()
+        if self.cluster is not None:
+            self.cluster.close()
+
+    def close_in_background(self):
+        import threading
+        closer = threading.Thread(target=self.close, name="lamina-map-cluster-close", daemon=True)
+        closer.start()
+        return closer
+
+    def __enter__(self) -> "MapCluster":
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+
 @contextlib.contextmanager
 def dask_client(workers: int | None = None, scheduler: str | None = None, connect_timeout: str = "10s"):
-    """A dask.distributed Client: to `scheduler` if given, else on a new LocalCluster.
-
-    The local cluster has `workers` single-threaded worker processes (default:
-    one per core) with OMP/BLAS threads set to 1; its HTTP port is any free one (":0"),
-    so that several maps can run side by side.
-    """
-    from distributed import Client, LocalCluster
-    if scheduler:
-        try:
-            client = Client(scheduler, timeout=connect_timeout)
-        except (OSError, TimeoutError, ValueError, TypeError) as exc:
-            raise LaminaInputError(f"cannot reach the dask scheduler: {exc}", f"--scheduler {scheduler}",
-                                   "the address of a running dask.distributed scheduler, e.g. tcp://host:8786") \
-                from None
-        with client:
-            yield client
-        return
-    if workers is None:
-        workers = available_cores()
-    previous = {name: os.environ.get(name) for name in WORKER_ENV}
-    os.environ.update(WORKER_ENV)  # spawned workers inherit these before numpy loads
-    try:
-        with LocalCluster(n_workers=workers, threads_per_worker=1, processes=True, dashboard_address=":0",
-                          silence_logs=logging.ERROR, env=dict(WORKER_ENV)) as cluster, Client(cluster) as client:
-            yield client
-    finally:
-        for name, value in previous.items():
-            if value is None:
-                os.environ.pop(name, None)
-            else:
-                os.environ[name] = value
+    """``with dask_client(...) as client``: a `MapCluster`'s client, closed at the end of the block."""
+    with MapCluster(workers, scheduler, connect_timeout) as session:
+        yield session.client
 
 
 def _worker_addresses(client) -> list[str]:
