@@ -126,6 +126,9 @@ def test_pseudo_dielectric_function_of_bare_substrate(n_sub):
     np.testing.assert_allclose(out["eps_pseudo"][1:, 0], eps, rtol=1e-10)
     # normal incidence: the theta -> 0 limit, evaluated at 0.01 deg (error ~ theta^2)
     np.testing.assert_allclose(out["eps_pseudo"][0, 0], eps, rtol=1e-6)
+    # just above normal incidence (rho + 1 ~ theta^2 below round-off): the same, finite
+    tiny = bare(n_sub, [1e-26, 1e-9, 0.004])
+    np.testing.assert_allclose(tiny["eps_pseudo"][:, 0], eps, rtol=1e-6)
     assert np.all(out["eps_pseudo"].imag >= -1e-12)
 
 

@@ -139,7 +139,7 @@ def averaged_solve(n_media_at: Callable, thickness_nm, coherent, wavelength_nm, 
             mean = _accumulate(mean, raw, weight * scale_weights, shape,
                                centre[2] if (i_wl, i_ang) == centre[:2] else None)
     out = finish(mean, np.sin(angle_rad), n_full[0] * n_full[0], shape)
-    normal = angle_rad[:, 0] == 0.0
+    normal = angle_rad[:, 0] < np.radians(NEAR_NORMAL_DEG)
     if pseudo_dielectric and np.any(normal):
         # <eps> holds no information at normal incidence; report the theta -> 0
         # limit of the nominal configuration (an average over +-theta of the

@@ -30,8 +30,9 @@ from .incoherent import combine, single_pass_transmission
 KEYS = ("rs", "rp", "ts", "tp", "Rs", "Rp", "Ts", "Tp", "R", "T", "A",
         "psi", "delta", "N", "C", "S", "P", "eps_pseudo")
 
-#: angle (deg) at which <eps> is evaluated in place of exact normal incidence,
-#: where it is 0 * inf; the relative error of the limit is of order theta^2 ~ 3e-8.
+#: <eps> at angles below this (deg) is evaluated at this angle: at normal
+#: incidence it is 0 * inf, and closer to it rho + 1 ~ theta^2 drowns in
+#: round-off; the relative error of the substitute is of order theta^2 ~ 3e-8.
 NEAR_NORMAL_DEG = 0.01
 
 _WHERE = "optics.solve"
@@ -52,14 +53,15 @@ def solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg, *, pseudo_d
 
     See the module docstring for inputs and outputs.  Scalars for wavelength
     or angle count as length-1 arrays.  With ``pseudo_dielectric=False`` the
-    extra near-normal evaluation for <eps> at angle 0 is skipped (<eps> there
-    is then NaN); fitters that do not use <eps> may set it.
+    extra near-normal evaluation for <eps> at angles below NEAR_NORMAL_DEG is
+    skipped (<eps> there is then NaN or round-off); fitters that do not use
+    <eps> may set it.
     """
     prepared = prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)
     n_full, d_full, coherent, k0, angle_rad, shape = prepared
     raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad))
     out = finish(raw, np.sin(angle_rad), n_full[0] * n_full[0], shape)
-    normal = angle_rad[:, 0] == 0.0
+    normal = angle_rad[:, 0] < np.radians(NEAR_NORMAL_DEG)
     if pseudo_dielectric and np.any(normal):
         near = np.full((int(normal.sum()), 1), np.radians(NEAR_NORMAL_DEG))
         raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near))
