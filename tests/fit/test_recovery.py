@@ -144,3 +144,22 @@ def test_tied_parameter_follows_and_propagates_error(tmm_data):
     assert abs(top["value"] - 40.0) < 3 * top["stderr"]
     assert result.stack.layer("bottom").thickness_nm.value == pytest.approx(bottom["value"])
     assert result.stack.layer("bottom").thickness_nm.expr == "top.thickness_nm * 2"
+
+
+def test_global_search_with_a_dispersion_parameter_free(tmm_data):
+    # thickness and Cauchy A both off: the period-aware scan plus differential evolution over A
+    # (Cauchy's formula n = A + B / lambda^2, e.g. Born and Wolf, Principles of Optics, sec. 2.3)
+    from lamina.dispersion import Cauchy
+    n_film = lambda wl: 1.46 + 0.004 / (wl / 1000.0) ** 2 + 0j  # noqa: E731
+    data = tmm_data.ellipsometry([lambda w: np.ones_like(w), n_film,
+                                  lambda w: np.full_like(w, SI_N + 1j * SI_K, dtype=complex)], [850.0],
+                                 (65.0, 75.0), np.linspace(400, 900, 26), sigma_psi=0.02, sigma_delta=0.05,
+                                 rng=np.random.default_rng(3))
+    stack = Stack([Layer("film", Cauchy(A=Param(1.52, 1.40, 1.60, vary=True), B_um2=0.004),
+                         Param(650.0, 0.0, 1500.0, vary=True))], Constant(SI_N, SI_K))
+    assert not lamina.fit(stack, data).success
+    found = lamina.fit(stack, data, global_search=True)
+    assert found.success
+    for name, truth in (("film.thickness_nm", 850.0), ("film.material.A", 1.46)):
+        entry = found.parameters[name]
+        assert abs(entry["value"] - truth) < 3.5 * entry["stderr"], (name, entry)
