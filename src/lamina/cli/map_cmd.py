@@ -69,8 +69,8 @@ def run(args) -> int:
     maps.check_on_wafer(dataset, geometry)
     stack.check_range(dataset["wavelength"].values)  # a model that cannot cover the data: exit 2, no cluster
 
-    bar = _progress(dataset.sizes["site"], args.quiet)
     session = maps.MapCluster(workers=args.workers, scheduler=args.scheduler)
+    bar = _progress(dataset.sizes["site"], args.quiet)  # after start-up: its rate is the fitting rate
     try:
         outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update)
     except BaseException:
