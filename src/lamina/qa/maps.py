@@ -324,9 +324,10 @@ def _outcome_from_result(result, index: int, global_search: bool) -> dict:
         "reason": "",
     }
     if not summary.get("converged", True):
+        details = [str(summary["message"])] if summary.get("message") else []
+        details += outcome["warnings"]
         outcome["status"] = "failed"
-        outcome["reason"] = "fit did not converge" + (
-            f" ({'; '.join(outcome['warnings'])})" if outcome["warnings"] else "")
+        outcome["reason"] = "fit did not converge" + (f" ({'; '.join(details)})" if details else "")
     elif not math.isfinite(outcome["reduced_chi2"]):
         outcome["status"] = "failed"
         outcome["reason"] = "fit gave a non-finite reduced chi-square"
