@@ -100,3 +100,10 @@ def test_bad_samples_are_input_errors(samples, message):
 def test_wrong_number_of_datasets(wafer_data):
     with pytest.raises(LaminaInputError, match="2 data sets for 3 samples"):
         lamina.fit(base_stack(raw_samples()), [wafer_data["w1"], wafer_data["w2"]])
+
+
+def test_sample_stack_carries_the_sample_thickness(wafer_data):
+    joint = lamina.fit(base_stack(raw_samples()), wafer_data)
+    w3 = joint.sample_stack("w3")
+    assert w3.layer("oxide").thickness_nm.value == pytest.approx(joint.value("w3.oxide.thickness_nm"))
+    assert w3.layer("oxide").material.params["A"].value == pytest.approx(joint.value("oxide.material.A"))

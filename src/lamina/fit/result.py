@@ -64,6 +64,13 @@ class FitResult:
         """Per-point pandas DataFrame: sample, angle_deg, wavelength_nm, quantity, data, model, residual, sigma."""
         return self._outputs()[1]
 
+    def sample_stack(self, name: str):
+        """The fitted stack of one sample of a multi-sample fit (shared values plus its own)."""
+        for sample in self.samples:
+            if sample.name == name:
+                return self.stack.with_params(sample.overrides) if sample.overrides else self.stack
+        raise KeyError(f"no sample '{name}' in this fit")
+
     def value(self, name: str) -> float:
         return self.parameters[name]["value"]
 

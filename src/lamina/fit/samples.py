@@ -18,6 +18,7 @@ when the stack lists exactly that many samples (data taken in sample order).
 """
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 from typing import Mapping
 
@@ -104,6 +105,12 @@ def assign_data(stack, data, samples: list[Sample] | None) -> list[tuple[Sample 
     return [(sample, [ds]) for sample, ds in zip(samples, sets)]
 
 
+def _read(path):
+    """A measurement file given by name (convenience for the Python API)."""
+    from ..data.readers import read_data
+    return read_data(path)
+
+
 def _is_dataset(obj) -> bool:
     return hasattr(obj, "data_vars") and hasattr(obj, "dims")
 
@@ -115,6 +122,7 @@ def _as_list(data) -> list:
         sets = list(data)
     else:
         sets = [data]
+    sets = [_read(ds) if isinstance(ds, (str, os.PathLike)) else ds for ds in sets]
     for k, ds in enumerate(sets, start=1):
         if not _is_dataset(ds):
             raise LaminaInputError(f"data item {k} is a {type(ds).__name__}, not a dataset", "data",
@@ -171,7 +179,6 @@ def build(stack, data, samples: list[Sample] | None = None):
 
 
 def _stem(label: str) -> str:
-    import os
     return os.path.splitext(os.path.basename(label))[0] or "data"
 
 
