@@ -131,3 +131,23 @@ def test_measured_bands_use_points_inside_band():
     assert out[0]["points"] == 5
     assert out[1]["pass"] is None and "not measured" in out[1]["reason"]
     assert out[2]["pass"] is None
+
+
+@pytest.mark.parametrize("n, k, wavelength, psi, delta", [
+    (0.2, 3.3, 632.8, 43.46, 106.18),    # bare absorbing substrate at 70 deg (team convention values)
+    (3.882, 0.019, 632.8, 10.57, 179.23),  # bare Si at 70 deg, 632.8 nm (team convention values)
+])
+def test_psi_delta_bands_of_a_bare_substrate(n, k, wavelength, psi, delta):
+    # values given with the project's conventions (rho = rp/rs = tan Psi exp(i Delta)), from memory of the
+    # usual Fresnel result; cross-checked against tmm.ellips with Delta_lamina = 180 - Delta_tmm (mod 360)
+    stack = Stack([Layer("none", Constant(1.5), 0.0)], Constant(n, k))
+    bands = (Band("psi", "psi", (wavelength, wavelength), angle_deg=70.0, min=psi - 0.5, max=psi + 0.5),
+             Band("delta", "delta", (wavelength, wavelength), angle_deg=70.0, min=delta - 0.5, max=delta + 0.5))
+    spectra = RecipeEvaluator(stack, band_requests(Target(bands=bands))).spectra()
+    got_psi, got_delta = spectra["band:psi"][0, 0], spectra["band:delta"][0, 0]
+    assert got_psi == pytest.approx(psi, abs=0.01) and got_delta == pytest.approx(delta, abs=0.01)
+    ref = tmm.ellips([1.0, n + 1j * k], [np.inf, np.inf], np.radians(70.0), wavelength)
+    assert got_psi == pytest.approx(np.degrees(ref["psi"]), abs=1e-9)
+    assert got_delta == pytest.approx((180.0 - np.degrees(ref["Delta"])) % 360.0, abs=1e-9)
+    report, _ = design_report(RecipeEvaluator(stack, band_requests(Target(bands=bands))), Target(bands=bands))
+    assert report["pass"] and report["bands"][0]["worst_margin"] == pytest.approx(0.5 - abs(got_psi - psi))
