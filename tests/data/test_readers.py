@@ -277,3 +277,15 @@ def test_csv_round_trip_property(tmp_path):
         assert back.attrs.get("note", "") == note.strip() or "\n" in note
 
     check()
+
+
+def test_csv_floats_do_not_depend_on_numpy_print_options(tmp_path):
+    # some libraries switch numpy to legacy printing on import (12 significant digits)
+    ds = read_data(write(tmp_path, "wavelength_nm,R\n500.0,0.30000000000000004\n600.0,0.3333333333333333\n"))
+    saved = np.get_printoptions()
+    try:
+        np.set_printoptions(legacy="1.13")
+        back = read_data(write_data(ds, tmp_path / "legacy.csv"))
+    finally:
+        np.set_printoptions(**saved)
+    np.testing.assert_array_equal(back["R"].values, ds["R"].values)

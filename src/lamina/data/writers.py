@@ -149,9 +149,20 @@ def write_csv(dataset, path, comments: Iterable[str] = (), metadata: Mapping[str
     for key, value in _header_metadata(dataset, metadata).items():
         for i, line in enumerate(str(value).splitlines() or [""]):
             lines.append(f"# {key}: {line}" if i == 0 else f"#   {line}")
-    # no float_format: every float is written with the shortest text that reads back exactly
-    body = frame.to_csv(index=False, lineterminator="\n")
+    body = _csv_body(frame)
     return atomic_write_text(path, "\n".join(lines) + ("\n" if lines else "") + body)
+
+
+def _csv_body(frame) -> str:
+    """Header and rows with every float as Python's repr: the shortest text that reads back exactly.
+
+    Written by hand rather than by DataFrame.to_csv, whose float text follows numpy's
+    global print options (which some libraries change on import, e.g. to 12 digits).
+    """
+    columns = [frame[name].to_numpy(dtype=float).tolist() for name in frame.columns]
+    lines = [",".join(frame.columns)]
+    lines += [",".join(map(repr, row)) for row in zip(*columns)]
+    return "\n".join(lines) + "\n"
 
 
 def write_netcdf(dataset, path, comments: Iterable[str] = (), metadata: Mapping[str, object] | None = None) -> Path:
