@@ -610,6 +610,8 @@ def measured_report(stack, data, target: Target, source: str) -> tuple[dict, obj
     drift = diagnose_drift(stack, data)
     fitted_stack = drift.pop("fitted_stack")
     report.update(drift)
+    if not drift["fit"].get("converged", True):
+        report["notes"] = ["the drift fit did not converge: read the fitted thicknesses with care"]
     return report, fitted_stack
 
 
