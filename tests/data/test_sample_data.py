@@ -71,3 +71,17 @@ def test_fits_recover_the_true_values_in_the_headers(model, files):
         # within 4 standard errors: a wrong model or a data bug would be far outside
         assert abs(fitted["value"] - value) < 4 * fitted["stderr"] + 1e-9, (name, fitted, value)
     assert np.isfinite(result["statistics"]["reduced_chi2"])
+
+
+def test_generator_check_notices_a_changed_value(tmp_path):
+    generator = load_generator()
+    current = sample_path("oxide_on_si_ellips.csv")
+    lines = current.read_text(encoding="utf-8").splitlines()
+    first = next(i for i, line in enumerate(lines) if line[:1].isdigit())
+    cells = lines[first].split(",")
+    cells[2] = repr(float(cells[2]) + 1e-6)  # psi of the first point, 1e-6 deg off
+    lines[first] = ",".join(cells)
+    changed = tmp_path / current.name
+    changed.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    assert generator.same_data(current, current)
+    assert not generator.same_data(current, changed)
