@@ -86,18 +86,27 @@ def test_incoherent_stacks_match_tmm(seed):
             np.testing.assert_allclose(out[key][0, w], ref, rtol=0, atol=1e-9, err_msg=key)
 
 
-@pytest.mark.parametrize("seed", range(200, 206))
-def test_absorbing_ambient_at_normal_incidence_matches_tmm(seed):
-    # tmm accepts an absorbing incidence medium only with n0 sin(th0) real, i.e. th0 = 0 here
+@pytest.mark.parametrize("seed", range(200, 210))
+def test_absorbing_ambient_matches_tmm(seed):
+    # lamina fixes a real tangential wave-vector kx = Re(N0) sin(theta0); tmm takes the same wave
+    # as a complex angle th0 with N0 sin(th0) = kx (its coh_tmm requires N0 sin(th0) real)
     rng = np.random.default_rng(seed)
-    n, thickness, coherent, _ = random_stack(rng, incoherent=False)
-    n[0] = np.full(WAVELENGTHS.size, complex(1.4, rng.uniform(0.001, 0.3)))
-    out = solve(n, thickness, coherent, WAVELENGTHS, 0.0)
+    n, thickness, coherent, angle = random_stack(rng, incoherent=bool(seed % 2))
+    n0 = complex(1.4, rng.uniform(0.001, 0.3))
+    n[0] = np.full(WAVELENGTHS.size, n0)
+    out = solve(n, thickness, coherent, WAVELENGTHS, angle)
+    th0 = np.arcsin(n0.real * np.sin(np.radians(angle)) / n0 + 0j)
     for w, wl in enumerate(WAVELENGTHS):
-        n_list, d_list, _ = tmm_lists(n, thickness, coherent, w)
-        s = tmm.coh_tmm("s", n_list, d_list, 0.0, wl)
-        np.testing.assert_allclose(out["rs"][0, w], s["r"], rtol=0, atol=1e-10)
-        np.testing.assert_allclose(out["Ts"][0, w], s["T"], rtol=0, atol=1e-9)
+        n_list, d_list, c_list = tmm_lists(n, thickness, coherent, w)
+        for pol in ("s", "p"):
+            if all(coherent):
+                ref = tmm.coh_tmm(pol, n_list, d_list, th0, wl)
+                np.testing.assert_allclose(out["r" + pol][0, w], ref["r"], rtol=0, atol=1e-10)
+                np.testing.assert_allclose(out["t" + pol][0, w], ref["t"], rtol=0, atol=1e-10)
+            else:
+                ref = tmm.inc_tmm(pol, n_list, d_list, c_list, th0, wl)
+            np.testing.assert_allclose(out["R" + pol][0, w], ref["R"], rtol=0, atol=1e-9)
+            np.testing.assert_allclose(out["T" + pol][0, w], ref["T"], rtol=0, atol=1e-9)
 
 
 def test_total_internal_reflection_matches_tmm():

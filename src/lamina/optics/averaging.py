@@ -138,7 +138,7 @@ def averaged_solve(n_media_at: Callable, thickness_nm, coherent, wavelength_nm, 
             weight = w_wl[i_wl] * w_ang[i_ang]
             mean = _accumulate(mean, raw, weight * scale_weights, shape,
                                centre[2] if (i_wl, i_ang) == centre[:2] else None)
-    out = finish(mean, np.sin(angle_rad), n_full[0] * n_full[0], shape)
+    out = finish(mean, np.sin(angle_rad), n_full[0], shape)
     normal = angle_rad[:, 0] < np.radians(NEAR_NORMAL_DEG)
     if pseudo_dielectric and np.any(normal):
         # <eps> holds no information at normal incidence; report the theta -> 0

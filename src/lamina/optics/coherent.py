@@ -38,26 +38,18 @@ import numpy as np
 #: uses the same cap, so results agree with it exactly).
 MAX_PHASE_IMAG = 35.0
 
-def normal_component(eps, kx2, fix_branch: bool = False):
-    """q = N cos(theta) = sqrt(eps - kx^2) on the forward branch (eps = N^2).
+def normal_component(eps, kx2):
+    """q = N cos(theta) = sqrt(eps - kx^2) on the forward branch (eps = N^2, kx real).
 
-    For real kx (transparent ambient) Im(eps - kx^2) = 2 n k >= 0, so the
-    principal square root already has Im(q) >= 0 (decaying into the medium) and
-    Re(q) >= 0 (power flowing away from the interface).  A signed zero -0.0 in
+    With a real tangential wave-vector kx, Im(eps - kx^2) = 2 n k >= 0, so the
+    principal square root has Im(q) >= 0 (decaying into the medium) and
+    Re(q) >= 0 (power flowing away from the interface) -- the physical branch
+    (see the ``tmm`` package's ``is_forward_angle``).  A signed zero -0.0 in
     the imaginary part would put an evanescent (total internal reflection) wave
-    on the growing branch; x - y is -0.0 only when x is, so the caller passes
-    eps with its signed zeros cleared (eps + 0j, on the small (W,) array).
-
-    With an absorbing ambient kx is complex; the principal root still has
-    Re(q) >= 0 (energy flows forward), and `fix_branch` additionally turns a
-    purely evanescent wave (Re(q) at round-off level) onto the decaying branch.
+    on the growing branch; x - kx^2 is -0.0 only when x is, so the caller
+    passes eps with its signed zeros cleared (eps + 0j, on the small (W,) array).
     """
-    q = np.sqrt(eps - kx2)
-    if fix_branch:
-        growing = (q.imag < 0) & (np.abs(q.real) <= 1e-12 * np.abs(q))
-        if np.any(growing):
-            q = np.where(growing, -q, q)
-    return q
+    return np.sqrt(eps - kx2)
 
 
 def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf):

@@ -60,14 +60,13 @@ def solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg, *, pseudo_d
     prepared = prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)
     n_full, d_full, coherent, k0, angle_rad, shape = prepared
     raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad))
-    out = finish(raw, np.sin(angle_rad), n_full[0] * n_full[0], shape)
+    out = finish(raw, np.sin(angle_rad), n_full[0], shape)
     normal = angle_rad[:, 0] < np.radians(NEAR_NORMAL_DEG)
     if pseudo_dielectric and np.any(normal):
         near = np.full((int(normal.sum()), 1), np.radians(NEAR_NORMAL_DEG))
         raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near))
         near_shape = shape[:-2] + (near.shape[0], shape[-1])
-        out["eps_pseudo"][..., normal, :] = finish(raw_near, np.sin(near), n_full[0] * n_full[0],
-                                                   near_shape)["eps_pseudo"]
+        out["eps_pseudo"][..., normal, :] = finish(raw_near, np.sin(near), n_full[0], near_shape)["eps_pseudo"]
     return out
 
 
@@ -138,16 +137,19 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
     """Amplitudes of the front part and the (R_s, R_p, X, T_s, T_p) sums.
 
     All arguments broadcast to the output shape; `coherent` has one flag per
-    inner medium.  The ambient angle is real: kx = N_0 sin(theta_0), complex
-    when the ambient absorbs.
+    inner medium.  The tangential wave-vector is real, kx = Re(N_0) sin(theta_0)
+    (for an absorbing ambient: an incident wave whose planes of constant
+    amplitude are parallel to the surface, the convention of the ``tmm``
+    package), so every medium below has a well-defined forward wave.
     """
     n_ambient = n_full[0]
-    absorbing_ambient = bool(np.any(n_ambient.imag != 0))
-    kx = n_ambient * sin0 if absorbing_ambient else n_ambient.real * sin0
+    kx = n_ambient.real * sin0
     kx2 = kx * kx
-    kx2_bound = float(np.max(np.abs(n_ambient))) ** 2  # |kx| <= |N_0| (real angles)
+    kx2_bound = float(np.max(np.abs(n_ambient.real))) ** 2  # |kx| <= Re(N_0)
     eps = [n * n + 0j for n in n_full]  # + 0j: no -0.0 imaginary parts (see normal_component)
-    q = [n_ambient * cos0] + [normal_component(e, kx2, absorbing_ambient) for e in eps[1:]]
+    absorbing_ambient = bool(np.any(n_ambient.imag != 0))
+    q_ambient = normal_component(eps[0], kx2) if absorbing_ambient else n_ambient * cos0
+    q = [q_ambient] + [normal_component(e, kx2) for e in eps[1:]]
 
     boundaries = [0] + [j + 1 for j, c in enumerate(coherent) if not c] + [len(n_full) - 1]
     zeta = {j: q[j] / eps[j] for j in boundaries}  # p admittance (tangential-H form) of thick media
@@ -194,14 +196,16 @@ def _impose_normal_incidence(raw: RawResponse, normal):
     raw.Tp = np.where(normal, raw.Ts, raw.Tp)
 
 
-def finish(raw: RawResponse, sin_theta, eps_ambient, shape) -> dict:
+def finish(raw: RawResponse, sin_theta, n_ambient, shape) -> dict:
     """All output quantities, each broadcast to `shape`, from the raw sums."""
     reflect = 0.5 * (raw.rs2 + raw.rp2)
     transmit = 0.5 * (raw.Ts + raw.Tp)
     cos_2theta = 1.0 - 2.0 * sin_theta * sin_theta
     n_elem, c_elem, s_elem, polarization = mueller_from_sums(raw.rs2, raw.rp2, raw.cross, cos_2theta)
     psi, delta = psi_delta_from_mueller(n_elem, c_elem, s_elem)
-    eps = pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_theta, eps_ambient)
+    # the two-phase inversion needs the ambient's (complex) sine: N_0 sin th_0 = kx
+    sin_ambient = sin_theta * (n_ambient.real / n_ambient) if np.any(n_ambient.imag != 0) else sin_theta
+    eps = pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_ambient, n_ambient * n_ambient)
     values = {"rs": raw.rs, "rp": raw.rp, "ts": raw.ts, "tp": raw.tp,
               "Rs": raw.rs2, "Rp": raw.rp2, "Ts": raw.Ts, "Tp": raw.Tp,
               "R": reflect, "T": transmit, "A": 1.0 - reflect - transmit,
