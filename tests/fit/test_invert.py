@@ -69,3 +69,19 @@ def test_kk_check_accepts_a_causal_table_and_rejects_an_acausal_one():
 def test_unknown_layer_is_an_input_error(film_data):
     with pytest.raises(LaminaInputError, match="no layer 'oxide'"):
         invert(stack(), film_data, "oxide")
+
+
+def test_continuity_decides_between_equally_good_solutions():
+    # two solutions with the same chi-square at wavelength 2: the one continuous with its neighbours wins;
+    # a clearly better one wins even when it is rough (common practice of point-by-point inversion)
+    from lamina.fit.invert import _accept
+    n = np.array([1.50, 1.51, 1.90, 1.53, 1.54])
+    k = np.zeros(5)
+    chi2 = np.array([2.0, 2.0, 2.0, 2.0, 2.0])
+    smooth = (np.array([1.50, 1.51, 1.52, 1.53, 1.54]), k, np.array([2.0, 2.0, 2.3, 2.0, 2.0]))
+    assert _accept(n, k, chi2, smooth, parity=0).tolist() == [False, False, True, False, False]
+    rough_but_better = (np.array([1.50, 1.51, 2.40, 1.53, 1.54]), k, np.array([2.0, 2.0, 0.5, 2.0, 2.0]))
+    assert _accept(n, k, chi2, rough_but_better, parity=0)[2]
+    worse_and_smooth = (smooth[0], k, np.array([2.0, 2.0, 3.5, 2.0, 2.0]))
+    assert not _accept(n, k, chi2, worse_and_smooth, parity=0)[2]
+    assert not _accept(n, k, chi2, smooth, parity=1)[2]     # odd wavelengths only in this half-step

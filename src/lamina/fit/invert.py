@@ -34,6 +34,8 @@ from ..units import HC_EV_NM
 from .objective import DEFAULT_SIGMA, QUANTITIES, make_block, wrap_degrees
 
 MAX_ITERATIONS = 60
+#: iterations of a restart from a neighbour's solution (close to a solution already)
+CONTINUATION_ITERATIONS = 25
 STEP = 1e-6
 #: k never goes below this (absorption is non-negative; exactly 0 keeps the derivative one-sided)
 K_FLOOR = 0.0
@@ -170,6 +172,34 @@ def _lm(problem: _PointProblem, n: np.ndarray, k: np.ndarray, iterations: int = 
     return n, k, chi2, J, converged
 
 
+#: chi-square difference below which two solutions at one wavelength count as equally good
+EQUAL_CHI2 = 1.0
+
+
+def _roughness(n_j, k_j, n, k) -> np.ndarray:
+    """Distance in (n, k) from each wavelength's value to its two neighbours' current values."""
+    left_n, left_k = np.r_[n[:1], n[:-1]], np.r_[k[:1], k[:-1]]
+    right_n, right_k = np.r_[n[1:], n[-1:]], np.r_[k[1:], k[-1:]]
+    return np.hypot(n_j - left_n, k_j - left_k) + np.hypot(n_j - right_n, k_j - right_k)
+
+
+def _accept(n, k, chi2, candidate, parity: int) -> np.ndarray:
+    """Where a neighbour-started solution replaces the current one.
+
+    Clearly better (chi-square lower by more than EQUAL_CHI2), or as good
+    within EQUAL_CHI2 and closer to its neighbours (continuity decides between
+    solutions the data cannot tell apart, e.g. R and T alone).  Only every
+    other wavelength (`parity`) changes at a time, so each one is judged
+    against neighbours that stay put.
+    """
+    cand_n, cand_k, cand_chi2 = candidate[0], candidate[1], candidate[2]
+    own = (np.arange(n.size) % 2) == parity
+    better = cand_chi2 < chi2 - EQUAL_CHI2
+    smoother = (cand_chi2 <= chi2 + EQUAL_CHI2) & (_roughness(cand_n, cand_k, n, k)
+                                                   < _roughness(n, k, n, k) - 1e-9)
+    return own & np.isfinite(cand_chi2) & (better | smoother)
+
+
 def _residual_and_jacobian(problem, n, k):
     hn = STEP * np.maximum(np.abs(n), 1.0)
     hk = STEP * np.maximum(np.abs(k), 1.0)
@@ -206,22 +236,23 @@ def invert(stack, data, layer: str, *, passes: int | None = None, kk_oscillators
     problem = _PointProblem(stack, data, layer)
     n, k = problem.start()
     n, k, chi2, J, converged = _lm(problem, n, k)
-    # each pass carries solutions one wavelength further; stop when nothing improves
+    # each pass carries solutions one wavelength further; stop when nothing changes
     for _ in range(passes if passes is not None else problem.W):
-        improved = False
+        changed = False
         for shift in (1, -1):
             start_n, start_k = np.roll(n, shift), np.roll(k, shift)
             edge = 0 if shift == 1 else -1
             start_n[edge], start_k[edge] = n[edge], k[edge]
-            n2, k2, chi2_2, J2, conv2 = _lm(problem, start_n, start_k)
-            # a real improvement, not round-off
-            better = chi2_2 < chi2 - (1e-3 + 1e-6 * chi2)
-            if better.any():
-                improved = True
-                n, k, chi2 = np.where(better, n2, n), np.where(better, k2, k), np.where(better, chi2_2, chi2)
-                J = np.where(better[:, None, None], J2, J)
-                converged = np.where(better, conv2, converged)
-        if not improved:
+            candidate = _lm(problem, start_n, start_k, CONTINUATION_ITERATIONS)
+            for parity in (0, 1):
+                accept = _accept(n, k, chi2, candidate, parity)
+                if accept.any():
+                    changed = True
+                    n, k = np.where(accept, candidate[0], n), np.where(accept, candidate[1], k)
+                    chi2 = np.where(accept, candidate[2], chi2)
+                    J = np.where(accept[:, None, None], candidate[3], J)
+                    converged = np.where(accept, candidate[4], converged)
+        if not changed:
             break
     cov = _covariance(J)
     scale = np.where((~problem.trusted) & (problem.dof > 0), chi2 / np.maximum(problem.dof, 1), 1.0)
