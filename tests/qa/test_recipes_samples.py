@@ -2,8 +2,6 @@
 import importlib.util
 from pathlib import Path
 
-import pytest
-
 from lamina.qa.recipes import load_target, load_tolerances
 
 ROOT = Path(__file__).resolve().parents[2]
