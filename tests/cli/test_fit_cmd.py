@@ -194,3 +194,11 @@ def test_invert_unknown_layer_exits_2(tmp_path, measured, capsys):
     model = write(tmp_path, "fixed.toml", TRUTH_MODEL)
     assert main(["invert", str(measured), "--model", str(model), "--layer", "nitride", "-o", str(tmp_path / "i")]) == 2
     assert "nitride" in capsys.readouterr().err
+
+
+def test_output_folder_that_is_a_file_exits_2(tmp_path, measured, capsys):
+    model = write(tmp_path, "start.toml", START_MODEL)
+    blocker = write(tmp_path, "taken", "not a folder")
+    assert main(["fit", str(measured), "--model", str(model), "-o", str(blocker)]) == 2
+    assert "not a folder" in capsys.readouterr().err
+    assert blocker.read_text() == "not a folder"

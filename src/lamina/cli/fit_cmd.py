@@ -65,8 +65,9 @@ def load_inputs(args):
 def run(args) -> int:
     from ..fit.engine import fit
 
-    stack, samples, data = load_inputs(args)
     outdir = Path(args.output)
+    check_outdir(outdir)
+    stack, samples, data = load_inputs(args)
     result = fit(stack, data, global_search=args.global_search, samples=samples,
                  model_label=str(args.model))
     write_outputs(result, outdir, model_path=args.model)
@@ -83,7 +84,7 @@ def write_outputs(result, outdir: Path, model_path=None) -> None:
     from ..data.writers import atomic_write_text
     from ..stack.modelfile import save_model
 
-    outdir.mkdir(parents=True, exist_ok=True)
+    make_outdir(outdir)
     stack = result.stack
     if model_path is not None and isinstance(stack.extras.get("samples"), list):
         stack.extras = dict(stack.extras, samples=_rebased_samples(stack.extras["samples"], Path(model_path), outdir))
@@ -95,6 +96,24 @@ def write_outputs(result, outdir: Path, model_path=None) -> None:
     except ImportError as exc:  # matplotlib missing: the numbers still count
         result.warnings.append(f"plots not written: {exc}")
     atomic_write_text(outdir / "result.json", result.to_json())
+
+
+def check_outdir(outdir: Path) -> None:
+    """A file where OUTDIR should be is an input error (checked before any work)."""
+    from ..errors import LaminaInputError
+    if outdir.exists() and not outdir.is_dir():
+        raise LaminaInputError("exists and is not a folder", str(outdir), "a folder name for the outputs (-o)")
+
+
+def make_outdir(outdir: Path) -> None:
+    """Create OUTDIR (and parents); problems are input errors, not tracebacks."""
+    from ..errors import LaminaInputError
+    check_outdir(outdir)
+    try:
+        outdir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise LaminaInputError(f"cannot create the output folder ({exc.strerror})", str(outdir),
+                               "a writable folder") from None
 
 
 def _rebased_samples(raw: list, model_path: Path, outdir: Path) -> list:

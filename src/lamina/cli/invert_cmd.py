@@ -33,12 +33,14 @@ def run(args) -> int:
     import lamina
     from ..data.writers import atomic_write_text
     from ..fit.invert import invert
+    from .fit_cmd import check_outdir, make_outdir
 
+    check_outdir(Path(args.output))
     stack = lamina.load_model(args.model)
     data = lamina.read_data(args.data if len(args.data) > 1 else args.data[0])
     result = invert(stack, data, args.layer)
     outdir = Path(args.output)
-    outdir.mkdir(parents=True, exist_ok=True)
+    make_outdir(outdir)
     header = (f"# n, k of layer '{args.layer}' by point-by-point inversion (lamina invert); "
               f"model {Path(args.model).name}\n")
     atomic_write_text(outdir / "nk.csv", header + result.table().to_csv(index=False, float_format="%.8g"))
