@@ -7,6 +7,7 @@ and the speed-up of 2 workers over 1.
 
     python benchmarks/map.py                  # both maps, 1 and 2 workers
     python benchmarks/map.py --sites 400 --workers 2 --repeat 2
+    python benchmarks/map.py --sites --plumbing 2000   # orchestration alone, no fitting
 
 Goal on a 2-core machine for the 400-site map: 2 workers at least 1.6x faster than 1,
 and at least 20 sites/s with 2 workers.  Other load on the machine spoils the figures:
@@ -73,13 +74,49 @@ def run(mapfile: Path, workers: int, outdir: Path) -> float:
     return seconds
 
 
+class _NoFit:
+    """Stands in for a fit result: what the orchestration needs, nothing computed."""
+
+    def __init__(self, stack):
+        self.stack = stack
+
+    def to_dict(self):
+        return {"converged": True, "statistics": {"reduced_chi2": 1.0},
+                "parameters": {"oxide.thickness_nm": {"value": 100.0, "stderr": 0.01}}, "warnings": []}
+
+
+def no_fit(stack, data, global_search=False):
+    return _NoFit(stack)
+
+
+def plumbing(n_sites: int, workers: int) -> None:
+    """Sites per second of the dask orchestration alone (read map, scatter, chunks, collect): no fitting."""
+    import lamina
+    from lamina.qa import maps
+    with tempfile.TemporaryDirectory() as tmp:
+        dataset = maps.read_map(write_map(Path(tmp) / "plumbing.csv", n_sites))
+    stack = lamina.load_model(MODEL)
+    with maps.dask_client(workers=workers) as client:
+        maps.fit_map(stack, dataset.isel(site=slice(0, 2 * workers)), client, site_fit=no_fit)  # warm
+        start = time.perf_counter()
+        maps.fit_map(stack, dataset, client, site_fit=no_fit)
+        seconds = time.perf_counter() - start
+    print(f"orchestration only (no fitting), {n_sites} sites, {workers} worker(s): {seconds:.2f} s, "
+          f"{n_sites / seconds:.0f} sites/s")
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--sites", type=int, nargs="+", default=[49, 400])
+    parser.add_argument("--sites", type=int, nargs="*", default=[49, 400])
     parser.add_argument("--workers", type=int, nargs="+", default=[1, 2])
     parser.add_argument("--repeat", type=int, default=1, help="runs per case; the fastest counts")
+    parser.add_argument("--plumbing", type=int, metavar="SITES", default=0,
+                        help="also time the dask orchestration alone on a map of SITES sites (no fitting)")
     args = parser.parse_args(argv)
     print(f"cores: {os.cpu_count()}, load average before: {os.getloadavg()[0]:.2f}")
+    if args.plumbing:
+        for workers in args.workers:
+            plumbing(args.plumbing, workers)
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
         for n_sites in args.sites:
