@@ -211,3 +211,13 @@ def test_workers_and_scheduler_are_exclusive(files, tmp_path):
     with pytest.raises(SystemExit) as info:
         run_map(files, tmp_path, "--workers", "2", "--scheduler", "tcp://127.0.0.1:1")
     assert info.value.code == 2
+
+
+def test_an_output_never_overwrites_an_input(files, tmp_path, capsys):
+    mapfile = tmp_path / "sites.csv"
+    mapfile.write_bytes(files["map"].read_bytes())
+    before = mapfile.read_bytes()
+    argv = ["map", str(mapfile), "--model", str(files["folder"] / "oxide.toml"), "-o", str(tmp_path)]
+    assert main(argv) == 2
+    assert "would overwrite" in capsys.readouterr().err
+    assert mapfile.read_bytes() == before

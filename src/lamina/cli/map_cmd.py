@@ -58,6 +58,7 @@ def run(args) -> int:
     from ..stack.modelfile import load_model
 
     outdir = _output_folder(args.output)
+    _refuse_overwriting_inputs(outdir, [args.mapfile, args.model, args.spec])
     stack = load_model(args.model)
     free = list(stack.free_parameters())
     if not free:
@@ -107,6 +108,24 @@ def _output_folder(text: str) -> Path:
         raise LaminaInputError(f"cannot create the folder: {exc.strerror}", str(outdir), "a writable folder") \
             from None
     return outdir
+
+
+OUTPUT_NAMES = ("sites.csv", "results.nc", "summary.json", "wafers.csv", "report.html")
+PLOT_PREFIXES = ("map_", "histogram_", "radial_", "trend_")
+
+
+def _refuse_overwriting_inputs(outdir: Path, inputs) -> None:
+    """Bad input if an output would replace an input file (never change an input)."""
+    from ..errors import LaminaInputError
+    for name in inputs:
+        if not name:
+            continue
+        path = Path(name)
+        if path.resolve().parent != outdir.resolve():
+            continue
+        if path.name in OUTPUT_NAMES or (path.name.startswith(PLOT_PREFIXES) and path.suffix == ".png"):
+            raise LaminaInputError(f"the output {path.name} would overwrite this input file", str(path),
+                                   "an output folder (-o) other than the input's folder, or another file name")
 
 
 class _NoBar:
