@@ -163,3 +163,32 @@ def test_global_search_with_a_dispersion_parameter_free(tmm_data):
     for name, truth in (("film.thickness_nm", 850.0), ("film.material.A", 1.46)):
         entry = found.parameters[name]
         assert abs(entry["value"] - truth) < 3.5 * entry["stderr"], (name, entry)
+
+
+def test_fixed_media_are_evaluated_once_and_jacobian_is_batched(tmm_data, monkeypatch):
+    # speed contract: fixed (e.g. tabulated) media are computed once per fit, and every Jacobian is one
+    # batched solver call (DEVELOPERS.md, docs/fitting.md)
+    import lamina.optics
+    calls = {"nk": 0, "batch": []}
+
+    class CountingSilicon(Constant):
+        def nk(self, wavelength_nm, values=None):
+            calls["nk"] += 1
+            return super().nk(wavelength_nm, values)
+
+    real_solve = lamina.optics.solve
+
+    def counting_solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
+        calls["batch"].append(int(np.size(thickness_nm[0])))
+        return real_solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)
+
+    monkeypatch.setattr(lamina.optics, "solve", counting_solve)
+    data = oxide_data(tmm_data, 120.0, np.linspace(400, 800, 11), seed=1)
+    stack = Stack([Layer("oxide", Sellmeier(MALITSON_TERMS), Param(110.0, 0.0, 500.0, vary=True))],
+                  CountingSilicon(SI_N, SI_K))
+    result = lamina.fit(stack, data)
+    assert result.success
+    assert calls["nk"] == 1
+    assert result.n_evaluations == sum(calls["batch"])
+    assert len(calls["batch"]) < result.n_evaluations       # several parameter sets per call
+    assert result.n_evaluations < 60
