@@ -18,7 +18,9 @@ DESCRIPTION = ("Fit every free parameter of a model file (a table {value, min, m
                "sample order).")
 EXAMPLE = ("  lamina fit oxide_65_70_75.csv --model oxide_on_si.toml -o out/\n"
            "  lamina fit thick.csv --model oxide_on_si.toml --global -o out/   # far from the start\n"
-           "  lamina fit --model three_wafers.toml -o out/                     # data named in [[samples]]")
+           "  lamina fit --model three_wafers.toml -o out/                     # data named in [[samples]]\n\n"
+           "exit codes: 0 fitted, 3 not converged (outputs still written), 2 bad input\n"
+           "results are model-dependent: verify against traceable reference samples (docs/fitting.md)")
 
 EXIT_OK, EXIT_NOT_CONVERGED = 0, 3
 

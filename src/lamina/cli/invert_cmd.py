@@ -14,7 +14,9 @@ DESCRIPTION = ("Solve n and k of one layer at every measured wavelength from all
                "measured there, with every other part of the model (thicknesses included) fixed, e.g. "
                "at the values of an earlier 'lamina fit'. The table is then checked for Kramers-Kronig "
                "consistency by fitting a causal oscillator sum to it.")
-EXAMPLE = "  lamina fit film.csv --model film.toml -o fit/\n  lamina invert film.csv --model fit/fitted.toml --layer film -o nk/"
+EXAMPLE = ("  lamina fit film.csv --model film.toml -o fit/\n"
+           "  lamina invert film.csv --model fit/fitted.toml --layer film -o nk/\n\n"
+           "exit codes: 0 done, 3 some wavelengths did not converge (outputs still written), 2 bad input")
 
 EXIT_OK, EXIT_NOT_CONVERGED = 0, 3
 
