@@ -147,3 +147,29 @@ def test_undetermined_parameter_has_no_finite_error(tmm_data):
     assert payload["parameters"]["oxide.material.oscillators.1.broadening_ev"]["stderr"] is None
     assert any("not determined" in w for w in payload["warnings"])
     assert math.isfinite(payload["parameters"]["oxide.thickness_nm"]["stderr"])
+
+
+def test_fit_model_equals_lamina_simulate_for_a_slab_stack():
+    # the fit's fast path (cached fixed media, direct solver calls) must give what lamina.simulate gives
+    import xarray as xr
+    from lamina.fit.objective import make_block
+    film = Lorentz(2.1, [{"amplitude": Param(1.1, 0.1, 3.0, vary=True), "center_ev": 4.0, "broadening_ev": 0.7}])
+    stack = Stack([Layer("film", film, Param(150.0, 0.0, 400.0, vary=True)),
+                   Layer("cap", Constant(1.38), Param(80.0, expr="film.thickness_nm / 2"))],
+                  Constant(1.52), substrate_thickness_mm=0.7, exit=Constant(1.33))
+    wl, angles = np.linspace(350, 900, 12), np.array([0.0, 45.0, 70.0])
+    grid = np.zeros((angles.size, wl.size))
+    ds = xr.Dataset({q: (("angle", "wavelength"), grid) for q in ("psi", "delta", "R", "T")},
+                    coords={"angle": angles, "wavelength": wl})
+    block = make_block("s", ds, stack)
+    block.drivers = {"film.thickness_nm": "film.thickness_nm", "cap.thickness_nm": "cap.thickness_nm",
+                     "film.material.oscillators.1.amplitude": "film.material.oscillators.1.amplitude"}
+    block.prepare()
+    values = {"film.thickness_nm": np.array([150.0, 170.0]), "cap.thickness_nm": np.array([75.0, 85.0]),
+              "film.material.oscillators.1.amplitude": np.array([1.1, 1.4])}
+    ours = block.simulate(values, 2)
+    reference = lamina.simulate(stack, wavelength_nm=wl, angle_deg=angles, values=values)
+    for q in ("psi", "R", "T"):
+        assert np.allclose(ours[q], reference[q].transpose("batch", "angle", "wavelength").values, atol=1e-12)
+    delta_diff = wrap_degrees(ours["delta"] - reference["delta"].transpose("batch", "angle", "wavelength").values)
+    assert np.allclose(delta_diff, 0.0, atol=1e-9)
