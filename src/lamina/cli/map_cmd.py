@@ -245,3 +245,5 @@ def _print_summary(summary: dict, parameters: list[str], outdir: Path) -> None:
         for reason in entry["reasons"]:
             print(f"  - {reason}")
     print(f"results in {outdir}/ (exit code {summary['exit_code']})")
+    if any(entry["pass"] is not None for entry in summary["wafers"].values()):
+        print(f"note: {summary['caution']}")

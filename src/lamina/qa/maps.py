@@ -56,6 +56,10 @@ WAFER_COLUMN = "wafer"
 #: label of the single wafer of a map without a wafer column
 DEFAULT_WAFER = "1"
 
+#: carried in every summary: a verdict here is an input to a decision, not the decision
+CAUTION = ("Results depend on the model; verify against traceable reference samples. Whether a wafer is "
+           "released, reworked or scrapped follows local procedures and is decided by qualified staff.")
+
 #: outlier rule for the second global search: reduced chi2 above both
 OUTLIER_FACTOR = 5.0
 OUTLIER_FLOOR = 3.0
@@ -656,6 +660,7 @@ def summarize(results: xr.Dataset, parameters: list[str], spec=None) -> dict:
         "spec": _spec_summary(spec),
         "pass": (all(judged) if judged else None) if spec is not None else None,
         "wafers": wafers,
+        "caution": CAUTION,
     }
 
 
