@@ -63,15 +63,20 @@ def write_map(path: Path, n_sites: int, seed: int = 1) -> Path:
     return path
 
 
-def run(mapfile: Path, workers: int, outdir: Path) -> float:
+def run(mapfile: Path, workers: int, outdir: Path) -> tuple[float, float]:
+    """(wall seconds, CPU seconds of the command and its worker processes)."""
+    import resource
     command = [sys.executable, "-m", "lamina.cli", "map", str(mapfile), "--model", str(MODEL),
                "--workers", str(workers), "--quiet", "-o", str(outdir)]
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
     done = subprocess.run(command, capture_output=True, text=True)
     seconds = time.perf_counter() - start
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
     if done.returncode not in (0, 1):
         raise SystemExit(f"lamina map failed ({done.returncode}):\n{done.stderr}")
-    return seconds
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    return seconds, cpu
 
 
 class _NoFit:
@@ -123,11 +128,13 @@ def main(argv=None) -> int:
             mapfile = write_map(folder / f"map{n_sites}.csv", n_sites)
             best = {}
             for workers in args.workers:
-                times = [run(mapfile, workers, folder / f"out{n_sites}_{workers}_{k}") for k in range(args.repeat)]
+                runs = [run(mapfile, workers, folder / f"out{n_sites}_{workers}_{k}") for k in range(args.repeat)]
+                times = [wall for wall, _ in runs]
                 best[workers] = min(times)
+                cpu = min(c for _, c in runs)
                 print(f"{n_sites:4d} sites, {workers} worker(s): {best[workers]:6.2f} s  "
-                      f"{n_sites / best[workers]:6.1f} sites/s  (runs: {', '.join(f'{t:.2f}' for t in times)})",
-                      flush=True)
+                      f"{n_sites / best[workers]:6.1f} sites/s  CPU {cpu:6.2f} s  "
+                      f"(runs: {', '.join(f'{t:.2f}' for t in times)}; load {os.getloadavg()[0]:.1f})", flush=True)
             if 1 in best and len(best) > 1:
                 for workers, seconds in best.items():
                     if workers != 1:
