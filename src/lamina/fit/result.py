@@ -106,7 +106,9 @@ class FitResult:
         stats = self.statistics
         head = (f"{'converged' if self.success else 'NOT converged'}: reduced chi2 = "
                 f"{_fmt(stats.get('reduced_chi2'))}, {stats.get('n_points')} points, {stats.get('n_free')} free")
-        tail = [f"warning: {w}" for w in self.warnings]
+        units = {"psi": " deg", "delta": " deg"}
+        rms = ", ".join(f"{q} {v:.3g}{units.get(q, '')}" for q, v in stats.get("rms", {}).items() if v is not None)
+        tail = ([f"rms misfit: {rms}"] if rms else []) + [f"warning: {w}" for w in self.warnings]
         return "\n".join([head] + lines + tail)
 
 
