@@ -228,3 +228,12 @@ def test_rebuild_leaves_inputs_untouched_and_no_temporary_files(check_dir):
 ])
 def test_value_and_uncertainty_formatting(value, sigma, text):
     assert fmt_pm(value, sigma) == text
+
+
+def test_plots_come_in_job_order_with_their_file_names(tmp_path, samples):
+    (tmp_path / "summary.json").write_text(json.dumps(samples.map_summary()))
+    for name in ("trend_t.png", "histogram_t.png", "map_t_LK-0412-03.png", "radial_t.png", "zz_extra.png"):
+        samples.write_plot(tmp_path / name, name)
+    html = render_report(tmp_path)
+    names = re.findall(r'<figcaption><span class="mono">([^<]+)</span>', html)
+    assert names == ["map_t_LK-0412-03.png", "radial_t.png", "histogram_t.png", "trend_t.png", "zz_extra.png"]

@@ -141,7 +141,7 @@ def read_sites(path: Path) -> tuple[list[str], list[dict]]:
 def collect_plots(folder: Path) -> list[dict]:
     """PNG and SVG files of the folder as data URIs (SVG inside <img> runs no script)."""
     plots = []
-    for path in sorted(folder.iterdir()):
+    for path in sorted(folder.iterdir(), key=_plot_order):
         suffix = path.suffix.lower()
         if suffix not in (".png", ".svg") or not path.is_file():
             continue
@@ -668,8 +668,17 @@ def _extra(raw: dict, known: set[str]) -> dict:
     return {str(k): v for k, v in raw.items() if k not in known}
 
 
+#: plots whose name starts so come first, in this order (the main picture of each job first)
+PLOT_PRIORITY = ("spectra", "nk", "map_", "radial", "histogram", "trend", "check_")
+
+
+def _plot_order(path: Path) -> tuple:
+    rank = next((i for i, prefix in enumerate(PLOT_PRIORITY) if path.name.startswith(prefix)), len(PLOT_PRIORITY))
+    return rank, path.name
+
+
 def _caption(stem: str) -> str:
-    return stem.replace("_", " ").replace("-", " ").strip()
+    return stem
 
 
 def _dict(value: Any) -> dict:
