@@ -65,12 +65,18 @@ def run(args) -> int:
         raise LaminaInputError("the model has no free parameter", args.model,
                                "at least one parameter given as a table {value, min, max}")
     spec = specs.read_spec(args.spec, free) if args.spec else None
-    dataset = maps.read_map(args.mapfile)
-    geometry = spec.geometry if spec else wafer.guess_geometry(dataset["x_mm"].values, dataset["y_mm"].values)
-    maps.check_on_wafer(dataset, geometry)
-    stack.check_range(dataset["wavelength"].values)  # a model that cannot cover the data: exit 2, no cluster
-
-    session = maps.MapCluster(workers=args.workers, scheduler=args.scheduler)
+    # model and spec are good: start the workers now, so that they spawn while the map is read
+    starting = _start_cluster(maps, args.workers, args.scheduler)
+    try:
+        dataset = maps.read_map(args.mapfile)
+        geometry = spec.geometry if spec else wafer.guess_geometry(dataset["x_mm"].values,
+                                                                   dataset["y_mm"].values)
+        maps.check_on_wafer(dataset, geometry)
+        stack.check_range(dataset["wavelength"].values)  # a model that cannot cover the data: exit 2
+    except BaseException:
+        _discard_cluster(starting)
+        raise
+    session = starting.result()
     bar = _progress(dataset.sizes["site"], args.quiet)  # after start-up: its rate is the fitting rate
     try:
         outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update)
@@ -95,6 +101,24 @@ def run(args) -> int:
     if not args.quiet:
         _print_summary(summary, free, outdir)
     return summary["exit_code"]
+
+
+def _start_cluster(maps, workers, scheduler):
+    """A future of the MapCluster, started in a thread (its failure surfaces at .result())."""
+    from concurrent.futures import ThreadPoolExecutor
+    pool = ThreadPoolExecutor(max_workers=1, thread_name_prefix="lamina-map-start")
+    future = pool.submit(maps.MapCluster, workers=workers, scheduler=scheduler)
+    pool.shutdown(wait=False)  # the thread ends by itself once the cluster is up
+    return future
+
+
+def _discard_cluster(starting) -> None:
+    """Stop a cluster started for a run that turned out to have bad input (its own errors are moot)."""
+    try:
+        session = starting.result()
+    except Exception:  # e.g. an unreachable scheduler: the input error raised first wins
+        return
+    session.close()
 
 
 def _output_folder(text: str) -> Path:
