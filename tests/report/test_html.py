@@ -179,6 +179,8 @@ def test_all_three_jobs_in_one_folder_keep_their_order(tmp_path, samples):
     html = render_report(tmp_path)
     kinds = re.findall(r'data-kind="(\w+)"', html)
     assert kinds == ["fit", "map", "check"]
+    # the page title carries the worst verdict of the folder
+    assert "<title>[FAIL] lamina report: Fit, Wafer map, Coating recipe check" in html
 
 
 @pytest.mark.parametrize("name", ["result.json", "summary.json", "check.json"])
