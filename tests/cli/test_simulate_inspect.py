@@ -137,7 +137,7 @@ SIMULATE_ERRORS = {
     "unknown quantity": (["--quantities", "psi,colour"], "--quantities psi,colour"),
     "noise on an unwritten quantity": (["--quantities", "psi", "--noise", "R=0.01"], "--noise R=0.01"),
     "unknown suffix": (["-o", "{tmp}/out.xlsx"], "-o"),
-    "missing folder": (["-o", "{tmp}/nowhere/out.csv"], "output folder does not exist"),
+    "folder is a file": (["-o", "{tmp}/oxide.toml/out.csv"], "is a file, not a folder"),
 }
 
 
@@ -286,3 +286,11 @@ def test_simulate_applies_the_model_instrument_section(tmp_path, capsys):
     np.testing.assert_allclose(written["psi"].values, averaged["psi"].values, rtol=1e-10)
     assert np.max(np.abs(written["psi"].values - plain["psi"].values)) > 1e-4  # averaging did something
     assert "bandwidth_nm=4" in written.attrs["instrument"]
+
+
+def test_simulate_creates_the_output_folder_only_on_success(tmp_path, model, capsys):
+    assert run_cli(["simulate", model, "--wavelengths", "bad", "-o", tmp_path / "new" / "out.csv"], capsys)[0] == 2
+    assert not (tmp_path / "new").exists()
+    assert run_cli(["simulate", model, "--wavelengths", "400,500", "-o", tmp_path / "new" / "sub" / "out.csv"],
+                   capsys)[0] == 0
+    assert lamina.read_data(tmp_path / "new" / "sub" / "out.csv")["wavelength"].size == 2

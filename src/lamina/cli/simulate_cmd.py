@@ -38,7 +38,7 @@ def add_arguments(parser) -> None:
     parser.add_argument("--seed", type=int, default=None, help="seed of the noise generator (reproducible noise)")
     parser.add_argument("--quiet", action="store_true", help="print nothing on success")
     parser.add_argument("-o", "--output", required=True, metavar="OUT",
-                        help="output measurement file: .csv or .nc")
+                        help="output measurement file: .csv or .nc (its folder is created if missing)")
 
 
 # ---------------------------------------------------------------------------
@@ -115,8 +115,14 @@ def check_output(output: str, inputs: list[Path]) -> Path:
     for source in inputs:
         if out.exists() and out.resolve() == source.resolve():
             raise LaminaInputError("the output would overwrite an input file", f"-o {output}", "another file name")
-    if not (out.parent if str(out.parent) else Path(".")).is_dir():
-        raise LaminaInputError("the output folder does not exist", f"-o {output}", "an existing folder")
+    parent = out.parent if str(out.parent) else Path(".")
+    for folder in (parent, *parent.parents):
+        if folder.exists():
+            if not folder.is_dir():
+                raise LaminaInputError(f"'{folder}' is a file, not a folder", f"-o {output}", "a path inside a folder")
+            break
+    if out.is_dir():
+        raise LaminaInputError("is a folder", f"-o {output}", "a file name ending in .csv or .nc")
     return out
 
 
@@ -220,6 +226,8 @@ def run(args) -> int:
     stack = load_model(model_path)
     ds = simulate_dataset(stack, wavelength_nm, angle_deg, quantities, noise, args.seed)
     comments, meta = header(model_path, stack, args, noise)
+    # the output folder is made only now, when everything has been checked and computed
+    out.parent.mkdir(parents=True, exist_ok=True)
     write_data(ds, out, comments=comments, metadata=meta)
     if not args.quiet:
         print(f"wrote {out}: {angle_deg.size} angle(s) x {wavelength_nm.size} wavelength(s) = "
