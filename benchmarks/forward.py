@@ -87,13 +87,16 @@ def main():
     n_table = np.array([np.broadcast_to(n, wavelength.shape) for n in n_media])
     d_list = [np.inf] + list(thickness) + [np.inf]
     worst = 0.0
-    start = time.perf_counter()
-    for flat in subset:
-        a, w = divmod(int(flat), wavelength.size)
-        ell = tmm.ellips(list(n_table[:, w]), d_list, np.radians(angles[a]), wavelength[w])
-        worst = max(worst, abs(np.degrees(ell["psi"]) - full["psi"][a, w]),
-                    abs((delta_from_tmm(ell["Delta"]) - full["delta"][a, w] + 180) % 360 - 180))
-    tmm_time = (time.perf_counter() - start) / subset.size * points
+    tmm_passes = []
+    for _ in range(3):  # best of three passes, as fair to tmm as best-of-N is to solve
+        start = time.perf_counter()
+        for flat in subset:
+            a, w = divmod(int(flat), wavelength.size)
+            ell = tmm.ellips(list(n_table[:, w]), d_list, np.radians(angles[a]), wavelength[w])
+            worst = max(worst, abs(np.degrees(ell["psi"]) - full["psi"][a, w]),
+                        abs((delta_from_tmm(ell["Delta"]) - full["delta"][a, w] + 180) % 360 - 180))
+        tmm_passes.append(time.perf_counter() - start)
+    tmm_time = min(tmm_passes) / subset.size * points
 
     print(f"stack: air / Cauchy 105 nm / Lorentz 42 nm / Si (table); {angles.size} angles x "
           f"{wavelength.size} wavelengths = {points} points")
@@ -105,10 +108,10 @@ def main():
           f"median {sim_median * 1e3:.3f} ms")
     print(f"batched solve, {batch} parameter sets: best {batch_best * 1e3:.2f} ms "
           f"({batch_best / batch * 1e3:.3f} ms per set)")
-    print(f"tmm.ellips: {tmm_time * 1e3:.0f} ms for the full grid (timed on {subset.size} random points, "
-          f"scaled x{points / subset.size:.1f})")
-    print(f"speed-up of solve over tmm: {tmm_time / best:.0f}x; largest |difference| on the subset: "
-          f"{worst:.1e} deg")
+    print(f"tmm.ellips: {tmm_time * 1e3:.0f} ms for the full grid (best of 3 passes over {subset.size} random "
+          f"points, scaled x{points / subset.size:.1f})")
+    print(f"speed-up of solve over tmm: {tmm_time / best:.0f}x best/best, {tmm_time / median:.0f}x against the "
+          f"median of solve; largest |difference| on the subset: {worst:.1e} deg")
 
 
 if __name__ == "__main__":
