@@ -72,17 +72,21 @@ def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf):
         decay = i_delta.real
         if decay.max() > MAX_PHASE_IMAG or decay.min() < -MAX_PHASE_IMAG:
             i_delta = np.clip(decay, -MAX_PHASE_IMAG, MAX_PHASE_IMAG) + 1j * i_delta.imag
-    phasor = np.exp(i_delta)
-    inverse = 1.0 / phasor
-    cos_d = 0.5 * (phasor + inverse)
-    diff = phasor - inverse
+    # in place on this function's own temporaries (fewer allocations)
+    phasor = np.exp(i_delta, out=i_delta)
+    inverse = np.divide(1.0, phasor)
+    cos_d = phasor + inverse
+    cos_d *= 0.5
+    diff = np.subtract(phasor, inverse, out=phasor)
     with np.errstate(divide="ignore", invalid="ignore"):
-        m12_s = diff / (-2.0 * q)
+        m12_s = np.multiply(q, -2.0, out=inverse)
+        np.divide(diff, m12_s, out=m12_s)
     if q.real.min() <= 0:  # cheap pre-check: q = 0 needs Re(q) = 0 (principal root: Re(q) >= 0)
         grazing = q == 0
         if np.any(grazing):
             m12_s = np.where(grazing, -1j * np.broadcast_to(k0d, grazing.shape), m12_s)
-    m21_s = (-0.5 * q) * diff
+    m21_s = np.multiply(q, diff, out=diff)
+    m21_s *= -0.5
     return cos_d, m12_s, m21_s, eps * m12_s, m21_s / eps
 
 
