@@ -249,6 +249,22 @@ def test_demo_runs_every_step_and_writes_into_its_folder(tmp_path, capsys):
     assert "invented" in out and "qualified staff" in out
     simulated = lamina.read_data(outdir / "oxide_simulated.csv")
     assert simulated.attrs["data_kind"] == "synthetic"
+    fitted = lamina.load_model(outdir / "oxide_fit" / "fitted.toml")
+    # the bundled measurement was made with 102.37 nm (its header says so); the fit finds it
+    assert fitted.parameters()["oxide.thickness_nm"].value == pytest.approx(102.37, abs=0.01)
+    reports = {p.parent.name for p in outdir.rglob("report.html")}
+    assert {"oxide_fit", "nitride_fit", "map", "check"} <= reports, reports
+
+
+def test_demo_quick_leaves_out_the_slow_steps(tmp_path, capsys):
+    from lamina.cli import demo
+
+    slow = [s for s in demo.STEPS if getattr(s, "slow", False)]
+    assert slow, "the map and Monte Carlo steps are marked slow"
+    code, out, _ = run_cli(["demo", "-o", tmp_path / "quick", "--quick", "--quiet"], capsys)
+    assert code == 0
+    assert all(demo.step_title(s) not in out for s in slow)
+    assert not (tmp_path / "quick" / "map").exists()
 
 
 def test_demo_refuses_a_file_as_its_folder(tmp_path, capsys):
