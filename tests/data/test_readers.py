@@ -289,3 +289,21 @@ def test_csv_floats_do_not_depend_on_numpy_print_options(tmp_path):
     finally:
         np.set_printoptions(**saved)
     np.testing.assert_array_equal(back["R"].values, ds["R"].values)
+
+
+@pytest.mark.parametrize("name, value, expected", [
+    ("R", 1.5, "R outside [0, 1]"), ("psi", 120.0, "Psi outside [0, 90]"), ("psi_err", -1.0, "not positive"),
+])
+def test_bad_netcdf_values_name_variable_and_grid_point(tmp_path, name, value, expected):
+    from lamina.data.readers import coordinates, variable_attrs
+
+    grid = np.full((2, 3), 0.5)
+    ds = xr.Dataset({v: (("angle", "wavelength"), grid.copy(), variable_attrs(v)) for v in ("psi", "psi_err", "R")},
+                    coords=coordinates([65.0, 70.0], [400.0, 500.0, 600.0]))
+    ds[name].values[1, 2] = value
+    path = tmp_path / "bad.nc"
+    ds.to_netcdf(path, engine="scipy")
+    with pytest.raises(LaminaInputError) as info:
+        read_data(path)
+    message = str(info.value)
+    assert f"{path}: {name} at angle 70 deg, wavelength 600 nm" in message and expected in message, message

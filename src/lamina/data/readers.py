@@ -482,15 +482,15 @@ def _check_netcdf(ds, label: str):
 
 def _check_grid_ranges(ds, label: str) -> None:
     """Range checks of a gridded dataset; NaN means 'not measured' and is allowed."""
+    angle, wavelength = np.meshgrid(ds["angle"].values, ds["wavelength"].values, indexing="ij")
+    grids = {"angle": angle, "wavelength": wavelength}
+
     def fail(name, mask, problem, expected):
         ia, iw = (int(i[0]) for i in np.nonzero(mask))
-        a, w = float(ds["angle"][ia]), float(ds["wavelength"][iw])
-        value = float(ds[name].values[ia, iw]) if name in ds.data_vars else float(ds[name].values[ia if name == "angle" else iw])
-        raise LaminaInputError(f"{problem} ({name} = {value:g})", f"{label}: {name} at angle {a:g} deg, "
-                               f"wavelength {w:g} nm", expected)
+        value = float(grids[name][ia, iw] if name in grids else ds[name].values[ia, iw])
+        raise LaminaInputError(f"{problem} ({name} = {value:g})", f"{label}: {name} at angle {angle[ia, iw]:g} deg, "
+                               f"wavelength {wavelength[ia, iw]:g} nm", expected)
 
-    angle = ds["angle"].values[:, None] + 0 * ds["wavelength"].values[None, :]
-    wavelength = 0 * ds["angle"].values[:, None] + ds["wavelength"].values[None, :]
     with np.errstate(invalid="ignore"):
         if np.any(wavelength <= 0):
             fail("wavelength", wavelength <= 0, "wavelength is not positive", "positive wavelengths in nm")
