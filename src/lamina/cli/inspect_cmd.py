@@ -136,4 +136,4 @@ def inspect_data(path: Path) -> list[str]:
     return lines
 
 
-__all__ = ["HELP", "EXAMPLE", "add_arguments", "run", "inspect_model", "inspect_data", "LaminaInputError"]
+__all__ = ["HELP", "EXAMPLE", "add_arguments", "run", "inspect_model", "inspect_data", "inspect_map"]
