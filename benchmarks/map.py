@@ -8,6 +8,7 @@ and the speed-up of 2 workers over 1.
     python benchmarks/map.py                  # both maps, 1 and 2 workers
     python benchmarks/map.py --sites 400 --workers 2 --repeat 2
     python benchmarks/map.py --sites --plumbing 2000   # orchestration alone, no fitting
+    python benchmarks/map.py --sites --stage 400       # fit_map alone on a warm cluster
 
 Goal on a 2-core machine for the 400-site map: 2 workers at least 1.6x faster than 1,
 and at least 20 sites/s with 2 workers.  Other load on the machine spoils the figures:
@@ -110,6 +111,25 @@ def plumbing(n_sites: int, workers: int) -> None:
           f"{n_sites / seconds:.0f} sites/s")
 
 
+def fitting_stage(n_sites: int, workers: int, repeat: int) -> None:
+    """Sites per second of fit_map alone (real fits) on a started, warm local cluster."""
+    import lamina
+    from lamina.qa import maps
+    with tempfile.TemporaryDirectory() as tmp:
+        dataset = maps.read_map(write_map(Path(tmp) / "stage.csv", n_sites))
+    stack = lamina.load_model(MODEL)
+    with maps.dask_client(workers=workers) as client:
+        maps.fit_map(stack, dataset.isel(site=slice(0, 2 * workers)), client)  # warm the workers
+        times = []
+        for _ in range(repeat):
+            start = time.perf_counter()
+            maps.fit_map(stack, dataset, client)
+            times.append(time.perf_counter() - start)
+    best = min(times)
+    print(f"fitting stage only (warm cluster), {n_sites} sites, {workers} worker(s): {best:.2f} s, "
+          f"{n_sites / best:.0f} sites/s (load {os.getloadavg()[0]:.1f})", flush=True)
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sites", type=int, nargs="*", default=[49, 400])
@@ -117,8 +137,13 @@ def main(argv=None) -> int:
     parser.add_argument("--repeat", type=int, default=1, help="runs per case; the fastest counts")
     parser.add_argument("--plumbing", type=int, metavar="SITES", default=0,
                         help="also time the dask orchestration alone on a map of SITES sites (no fitting)")
+    parser.add_argument("--stage", type=int, metavar="SITES", default=0,
+                        help="also time fit_map alone (real fits, warm cluster) on a map of SITES sites")
     args = parser.parse_args(argv)
     print(f"cores: {os.cpu_count()}, load average before: {os.getloadavg()[0]:.2f}")
+    if args.stage:
+        for workers in args.workers:
+            fitting_stage(args.stage, workers, max(1, args.repeat))
     if args.plumbing:
         for workers in args.workers:
             plumbing(args.plumbing, workers)
