@@ -67,6 +67,7 @@ def run(args) -> int:
     spec = specs.read_spec(args.spec, free) if args.spec else None
     # model and spec are good: start the workers now, so that they spawn while the map is read
     starting = _start_cluster(maps, args.workers, args.scheduler)
+    _import_in_background(PLOT_MODULES)  # ready by the time the plots are drawn; idle core meanwhile
     try:
         dataset = maps.read_map(args.mapfile)
         geometry = spec.geometry if spec else wafer.guess_geometry(dataset["x_mm"].values,
@@ -101,6 +102,24 @@ def run(args) -> int:
     if not args.quiet:
         _print_summary(summary, free, outdir)
     return summary["exit_code"]
+
+
+#: what drawing the plots imports (about a second): imported in a thread while the sites are fitted
+PLOT_MODULES = ("matplotlib.figure", "matplotlib.backends.backend_agg", "scipy.interpolate",
+                "lamina.report.plots_map", "lamina.report.html")
+
+
+def _import_in_background(modules) -> None:
+    import importlib
+    import threading
+
+    def load():
+        for name in modules:
+            try:
+                importlib.import_module(name)
+            except Exception:  # the real import later reports any problem
+                return
+    threading.Thread(target=load, name="lamina-map-imports", daemon=True).start()
 
 
 def _start_cluster(maps, workers, scheduler):
