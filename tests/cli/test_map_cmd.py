@@ -195,6 +195,7 @@ def test_bad_spec_exits_2_naming_file_and_key(files, tmp_path, capsys, spec_text
     err = capsys.readouterr().err
     assert "bad.toml" in err and message in err and "Traceback" not in err
     assert len(err.strip().splitlines()) <= 2
+    assert not (tmp_path / "out").exists()  # bad input leaves no output folder behind
 
 
 def test_bad_map_exits_2_from_the_command_line(files, tmp_path):
@@ -205,6 +206,7 @@ def test_bad_map_exits_2_from_the_command_line(files, tmp_path):
                             capture_output=True, text=True)
     assert result.returncode == 2
     assert "bad.csv:1" in result.stderr and "y_mm" in result.stderr and "Traceback" not in result.stderr
+    assert not (tmp_path / "out").exists()
 
 
 def test_workers_and_scheduler_are_exclusive(files, tmp_path):

@@ -53,27 +53,17 @@ def add_arguments(parser) -> None:
 
 
 def run(args) -> int:
-    from ..errors import LaminaInputError
-    from ..qa import maps, specs, wafer
-    from ..stack.modelfile import load_model
+    from ..qa import maps
 
-    outdir = _output_folder(args.output)
+    outdir = _output_folder(args.output, create=False)
     _refuse_overwriting_inputs(outdir, [args.mapfile, args.model, args.spec])
-    stack = load_model(args.model)
-    free = list(stack.free_parameters())
-    if not free:
-        raise LaminaInputError("the model has no free parameter", args.model,
-                               "at least one parameter given as a table {value, min, max}")
-    spec = specs.read_spec(args.spec, free) if args.spec else None
+    stack, free, spec = _read_model_and_spec(args)
     # model and spec are good: start the workers now, so that they spawn while the map is read
     starting = _start_cluster(maps, args.workers, args.scheduler)
     _import_in_background(PLOT_MODULES)  # ready by the time the plots are drawn; idle core meanwhile
     try:
-        dataset = maps.read_map(args.mapfile)
-        geometry = spec.geometry if spec else wafer.guess_geometry(dataset["x_mm"].values,
-                                                                   dataset["y_mm"].values)
-        maps.check_on_wafer(dataset, geometry)
-        stack.check_range(dataset["wavelength"].values)  # a model that cannot cover the data: exit 2
+        dataset, geometry = _read_map_checked(args.mapfile, stack, spec)
+        _output_folder(args.output, create=True)
     except BaseException:
         _discard_cluster(starting)
         raise
@@ -88,20 +78,50 @@ def run(args) -> int:
         bar.close()
     closing = session.close_in_background()  # workers stop while the outputs are written
     try:
-        units = {name: spec_.unit for name, spec_ in stack.specs().items() if name in free}
-        results = maps.results_dataset(dataset, outcomes, free, geometry, spec, units)
-        summary = maps.summarize(results, free, spec)
-        summary["inputs"] = {"map": str(args.mapfile), "model": str(args.model),
-                             "spec": str(args.spec) if args.spec else None}
-        summary["exit_code"] = maps.exit_code(summary)
-        write_outputs(outdir, results, summary, free, units, geometry, spec)
-        from ..report.html import write_report
-        write_report(outdir)
+        summary = _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes)
     finally:
         closing.join()
     if not args.quiet:
         _print_summary(summary, free, outdir)
     return summary["exit_code"]
+
+
+def _read_model_and_spec(args):
+    """(stack, free parameter names, spec or None); bad input raises before any worker starts."""
+    from ..errors import LaminaInputError
+    from ..qa import specs
+    from ..stack.modelfile import load_model
+    stack = load_model(args.model)
+    free = list(stack.free_parameters())
+    if not free:
+        raise LaminaInputError("the model has no free parameter", args.model,
+                               "at least one parameter given as a table {value, min, max}")
+    spec = specs.read_spec(args.spec, free) if args.spec else None
+    return stack, free, spec
+
+
+def _read_map_checked(mapfile, stack, spec):
+    """The map and the wafer geometry, with every site on the wafer and the model covering the data."""
+    from ..qa import maps, wafer
+    dataset = maps.read_map(mapfile)
+    geometry = spec.geometry if spec else wafer.guess_geometry(dataset["x_mm"].values, dataset["y_mm"].values)
+    maps.check_on_wafer(dataset, geometry)
+    stack.check_range(dataset["wavelength"].values)  # a model that cannot cover the data: exit 2
+    return dataset, geometry
+
+
+def _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes) -> dict:
+    from ..qa import maps
+    from ..report.html import write_report
+    units = {name: spec_.unit for name, spec_ in stack.specs().items() if name in free}
+    results = maps.results_dataset(dataset, outcomes, free, geometry, spec, units)
+    summary = maps.summarize(results, free, spec)
+    summary["inputs"] = {"map": str(args.mapfile), "model": str(args.model),
+                         "spec": str(args.spec) if args.spec else None}
+    summary["exit_code"] = maps.exit_code(summary)
+    write_outputs(outdir, results, summary, free, units, geometry, spec)
+    write_report(outdir)
+    return summary
 
 
 #: what drawing the plots imports (about a second): imported in a thread while the sites are fitted
@@ -140,11 +160,14 @@ def _discard_cluster(starting) -> None:
     session.close()
 
 
-def _output_folder(text: str) -> Path:
+def _output_folder(text: str, create: bool) -> Path:
+    """OUTDIR checked (not a file); created only when `create` (after the inputs proved good)."""
     from ..errors import LaminaInputError
     outdir = Path(text)
     if outdir.exists() and not outdir.is_dir():
         raise LaminaInputError("exists and is not a folder", str(outdir), "a folder for the results")
+    if not create:
+        return outdir
     try:
         outdir.mkdir(parents=True, exist_ok=True)
     except OSError as exc:
