@@ -180,10 +180,17 @@ def _read_toml(path) -> dict:
         raise LaminaInputError(f"not valid TOML ({exc})", str(path), "a TOML file") from None
 
 
+def _join(where: str, key: str) -> str:
+    """Key path of `key` under `where` ("file.toml:" + key reads "file.toml: key")."""
+    if not where:
+        return key
+    return f"{where} {key}" if where.endswith(":") else f"{where}.{key}"
+
+
 def _check_keys(table: Mapping, allowed: set[str], where: str) -> None:
     for key in table:
         if key not in allowed:
-            raise LaminaInputError(f"unknown key '{key}'", f"{where}.{key}" if where else key,
+            raise LaminaInputError(f"unknown key '{key}'", _join(where, key),
                                    "one of " + ", ".join(sorted(allowed)))
 
 
@@ -192,7 +199,7 @@ def _number(table: Mapping, key: str, where: str, *, lower: float | None = None,
     if key not in table:
         return default
     value = table[key]
-    label = f"{where}.{key}" if where else key
+    label = _join(where, key)
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
         raise LaminaInputError(f"{key} = {value!r} is not a finite number", label, "a number")
     value = float(value)
