@@ -55,6 +55,8 @@ def add_arguments(parser) -> None:
 def run(args) -> int:
     from ..qa import maps
 
+    if not args.scheduler:
+        maps.prepare_local_workers()  # the workers' imports overlap reading the inputs
     outdir = _output_folder(args.output, create=False)
     _refuse_overwriting_inputs(outdir, [args.mapfile, args.model, args.spec])
     stack, free, spec = _read_model_and_spec(args)

@@ -450,6 +450,48 @@ WORKER_PRELOAD = ("numpy", "scipy.optimize", "lmfit", "xarray", "lamina.fit.engi
                   "lamina.qa.maps")
 
 
+_FORKSERVER_LOCK = __import__("threading").Lock()
+_forkserver_ready = False
+
+
+def _configure_forkserver() -> bool:
+    """Give the forkserver lamina's preload list (once per process); False where forkserver does not exist."""
+    global _forkserver_ready
+    import multiprocessing
+    if "forkserver" not in multiprocessing.get_all_start_methods():
+        return False
+    with _FORKSERVER_LOCK:
+        if not _forkserver_ready:
+            import dask
+            from distributed.utils import get_mp_context
+            with dask.config.set({"distributed.worker.multiprocessing-method": "forkserver"}):
+                context = get_mp_context()  # distributed sets its own preload list on the first call
+            from multiprocessing import forkserver
+            current = getattr(getattr(forkserver, "_forkserver", None), "_preload_modules", None) or ["distributed"]
+            # takes effect when the server starts, i.e. with the first worker of the process
+            context.set_forkserver_preload(list(dict.fromkeys(list(current) + list(WORKER_PRELOAD))))
+            _forkserver_ready = True
+    return True
+
+
+def prepare_local_workers() -> None:
+    """Start the warm fork server in a background thread, ahead of the cluster.
+
+    Its imports (some seconds) then overlap whatever the caller does meanwhile
+    (reading the model and the map); nothing to undo if the caller stops early.
+    """
+    import threading
+
+    def start():
+        try:
+            if _configure_forkserver():
+                from multiprocessing import forkserver
+                forkserver.ensure_running()
+        except Exception:  # the cluster start reports any real problem
+            pass
+    threading.Thread(target=start, name="lamina-forkserver", daemon=True).start()
+
+
 @contextlib.contextmanager
 def _fork_from_a_warm_server():
     """Start local workers by forking a server process that has imported the fitting stack.
@@ -460,19 +502,11 @@ def _fork_from_a_warm_server():
     each worker is a cheap fork of it.  Where forkserver is not available (Windows) the
     default 'spawn' stays.
     """
-    import multiprocessing
-
-    import dask
-    if "forkserver" not in multiprocessing.get_all_start_methods():
+    if not _configure_forkserver():
         yield
         return
-    from distributed.utils import get_mp_context
+    import dask
     with dask.config.set({"distributed.worker.multiprocessing-method": "forkserver"}):
-        context = get_mp_context()  # distributed sets its own preload list on the first call
-        from multiprocessing import forkserver
-        current = getattr(getattr(forkserver, "_forkserver", None), "_preload_modules", None) or ["distributed"]
-        # takes effect when the server starts, i.e. with the first worker of the process
-        context.set_forkserver_preload(list(dict.fromkeys(list(current) + list(WORKER_PRELOAD))))
         yield
 
 
