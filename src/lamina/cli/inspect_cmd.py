@@ -15,20 +15,24 @@ DESCRIPTION = (
     "A file with a problem gives one message naming the file, line/key and what was expected,\n"
     "and exit code 2."
 )
-EXAMPLE = "  lamina inspect oxide_on_si.toml\n  lamina inspect oxide_on_si_ellips.csv rt_normal.csv\n"
+EXAMPLE = ("  lamina inspect oxide_on_si.toml\n  lamina inspect oxide_on_si_ellips.csv rt_normal.csv\n"
+           "  lamina inspect --quiet model.toml data.csv && echo valid   # validation in a script\n")
 
 
 def add_arguments(parser) -> None:
     parser.add_argument("files", nargs="+", metavar="FILE", help="model file (.toml) or measurement file (.csv, .nc)")
+    parser.add_argument("--quiet", action="store_true",
+                        help="print nothing; only validate (exit code 0 good, 2 bad file)")
 
 
 def run(args) -> int:
     for index, name in enumerate(args.files):
-        if index:
+        if index and not args.quiet:
             print()
         path = Path(name)
         lines = inspect_model(path) if path.suffix.lower() == ".toml" else inspect_data(path)
-        print("\n".join(lines))
+        if not args.quiet:
+            print("\n".join(lines))
     return 0
 
 
