@@ -52,7 +52,7 @@ def normal_component(eps, kx2):
     return np.sqrt(eps - kx2)
 
 
-def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf):
+def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf, with_p=True):
     """Elements of one layer's characteristic matrices for s and p.
 
     Returns (cos_d, m12_s, m21_s, m12_p, m21_p): the diagonal element cos(delta)
@@ -63,7 +63,8 @@ def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf):
     m21_s = -q (e^{i delta} - e^{-i delta}) / 2.  At q = 0 (grazing inside the
     layer) m12_s takes its limit -i k0 d; a zero-thickness layer gives the
     identity matrix exactly.  `kx2_bound`, an upper bound of |kx|^2, lets a
-    cheap bound skip the search for phases beyond the cap.
+    cheap bound skip the search for phases beyond the cap.  Without `with_p`
+    the p elements are None.
     """
     k0d = k0_per_nm * thickness_nm
     i_delta = (1j * k0d) * q
@@ -87,6 +88,8 @@ def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf):
             m12_s = np.where(grazing, -1j * np.broadcast_to(k0d, grazing.shape), m12_s)
     m21_s = np.multiply(q, diff, out=diff)
     m21_s *= -0.5
+    if not with_p:
+        return cos_d, m12_s, m21_s, None, None
     return cos_d, m12_s, m21_s, eps * m12_s, m21_s / eps
 
 
@@ -99,6 +102,94 @@ def _may_exceed_cap(k0d, eps, kx2_bound) -> bool:
         return True
     bound = np.max(k0d) * np.sqrt(np.max(np.abs(eps)) + kx2_bound)
     return not bound <= MAX_PHASE_IMAG
+
+
+def lossless_layer_matrices(q, eps, thickness_nm, k0_per_nm, with_p=True):
+    """`layer_matrices` of a lossless layer with a propagating wave (real q > 0, real eps).
+
+    The phase delta = k0 d q is then real, so cos(delta) and sin(delta) are
+    real and the off-diagonal elements purely imaginary: m12 = -i a and
+    m21 = -i b with a = sin(delta) / eta, b = eta sin(delta) (eta = q for s,
+    q / eps for p).  Returns (cos_d, a_s, b_s, a_p, b_p), real arrays; a_p and
+    b_p are None when `with_p` is false.  Agrees with `layer_matrices` to
+    round-off.
+
+    cos and sin come from one tangent, t = tan(delta / 2):
+    cos = (1 - t^2) / (1 + t^2) = w - 1 and sin = 2t / (1 + t^2) = t w with
+    w = 2 / (1 + t^2) (half-angle identities).  numpy evaluates tan vectorized,
+    several times faster than cos and sin, and one transcendental replaces two
+    (or a complex exp and a division).  The absolute errors are a few units of
+    round-off, like those of cos and sin of the (already rounded) phase itself:
+    near delta = pi, where t is large and ill-conditioned, sin ~ 2 / t and
+    cos ~ -1 + 2 / t^2 stay accurate; |tan| of a double stays below ~2e16, so
+    t^2 never overflows.  A zero thickness gives the identity exactly.
+    """
+    t = np.multiply(0.5 * k0_per_nm * thickness_nm, q)  # half phase, this function's own array
+    np.tan(t, out=t)
+    w = np.multiply(t, t)
+    w += 1.0
+    np.divide(2.0, w, out=w)
+    sin_d = np.multiply(t, w, out=t)
+    cos_d = np.subtract(w, 1.0, out=w)
+    a_s = sin_d / q
+    b_s = np.multiply(sin_d, q, out=sin_d)
+    if not with_p:
+        return cos_d, a_s, b_s, None, None
+    return cos_d, a_s, b_s, a_s * eps, b_s / eps
+
+
+def lossless_product(layers):
+    """M = M_1 ... M_m of lossless layers given as (cos_d, a, b), top to bottom.
+
+    Products of matrices [[c, -i a], [-i b, c]] with real c, a, b keep the form
+    [[m11, -i x], [-i y, m22]] with all four real: returns (m11, x, y, m22).
+    Real arithmetic on four arrays costs about a third of the complex matrix
+    product.
+    """
+    m11, x, y, m22 = layers[0][0], layers[0][1], layers[0][2], layers[0][0]
+    if len(layers) == 1:
+        return m11, x, y, m22
+    # the second layer's product allocates the four result arrays; later layers
+    # update them in place through two scratch arrays
+    cos_d, a, b = layers[1]
+    m11, x, y, m22 = m11 * cos_d - x * b, m11 * a + x * cos_d, y * cos_d + m22 * b, m22 * cos_d - y * a
+    full = np.broadcast_shapes(*(element.shape for layer in layers[2:] for element in layer), m11.shape)
+    if m11.shape != full:  # a later layer has more batch or angle axes
+        m11, x, y, m22 = (np.array(np.broadcast_to(element, full)) for element in (m11, x, y, m22))
+    first, second = np.empty(full), np.empty(full)
+    for cos_d, a, b in layers[2:]:
+        # [[m11, -ix], [-iy, m22]] @ [[c, -ia], [-ib, c]]
+        np.multiply(x, b, out=first)      # x b, for m11
+        np.multiply(m11, a, out=second)   # m11 a, for x
+        m11 *= cos_d
+        m11 -= first
+        x *= cos_d
+        x += second
+        np.multiply(y, a, out=first)      # y a, for m22
+        np.multiply(m22, b, out=second)   # m22 b, for y
+        m22 *= cos_d
+        m22 -= first
+        y *= cos_d
+        y += second
+    return m11, x, y, m22
+
+
+def lossless_block_forward(eta_top, eta_bottom, product):
+    """`block_forward` from a lossless product (m11, x, y, m22) (see `lossless_product`)."""
+    m11, x, y, m22 = product
+    b = m11 - 1j * (x * eta_bottom)
+    c = m22 * eta_bottom - 1j * y
+    return _coefficients(eta_top, eta_bottom, b, c)
+
+
+def lossless_block_both_ways(eta_top, eta_bottom, product):
+    """`block_both_ways` from a lossless product (m11, x, y, m22)."""
+    m11, x, y, m22 = product
+    m12, m21 = -1j * x, -1j * y
+    front = _coefficients(eta_top, eta_bottom, m11 + m12 * eta_bottom, m21 + m22 * eta_bottom)
+    back = _coefficients(eta_bottom, eta_top, m22 + m12 * eta_top, m21 + m11 * eta_top)
+    front.r_back, front.t_back = back.r, back.t
+    return front
 
 
 class BlockCoefficients:

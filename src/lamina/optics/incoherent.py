@@ -87,6 +87,24 @@ def _add_block_on_top(bs, bp, single_pass, below):
     return Channels(rs2, rp2, cross, ts2, tp2)
 
 
+def combine_normal(blocks_s, slab_passes):
+    """`combine` at normal incidence, from the s blocks alone.
+
+    There s and p are the same wave (r_p = -r_s for every path, and
+    |t_p t_p'| = |t_s t_s'| since the H/E field factors cancel over a round
+    trip), so R_p = R_s, X = -R_s and the transmission sums are equal; the
+    recursion for s is the one `combine` runs, giving identical numbers.
+    """
+    rs2, ts2 = _abs2(blocks_s[-1].r), _abs2(blocks_s[-1].t)
+    for k in range(len(blocks_s) - 2, -1, -1):
+        bs, single_pass = blocks_s[k], slab_passes[k]
+        p2 = single_pass * single_pass
+        denom = 1.0 - _abs2(bs.r_back) * p2 * rs2
+        rs2, ts2 = (_abs2(bs.r) + _abs2(bs.t * bs.t_back) * p2 * rs2 / denom,
+                    _abs2(bs.t) * single_pass * ts2 / denom)
+    return Channels(rs2, rs2, np.negative(rs2, dtype=complex), ts2, ts2)
+
+
 def single_pass_transmission(q, thickness_nm, k0_per_nm):
     """P = exp(-2 k0 d Im(q)): intensity left after one crossing of a thick layer."""
     return np.exp(-2.0 * k0_per_nm * thickness_nm * q.imag)

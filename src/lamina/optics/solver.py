@@ -16,15 +16,22 @@ With an incoherent layer the amplitudes are those of the coherent part in
 front of the first thick layer (the front-surface reflection), not of the
 whole sample, whose reflected light is a sum of intensities; all the other
 quantities are of the whole sample.
+
+Fast paths, chosen automatically and equal to the general computation to
+round-off (tests/optics/test_fast_paths.py): when every angle is 0 only s is
+computed (p is the same wave there); a coherent block whose layers are all
+lossless with a propagating wave (real N, real q) is multiplied out in real
+arithmetic; ``quantities=`` skips outputs nobody asked for.
 """
 from __future__ import annotations
 
 import numpy as np
 
 from ..errors import LaminaInputError
-from .coherent import block_both_ways, block_forward, layer_matrices, normal_component
+from .coherent import (block_both_ways, block_forward, layer_matrices, lossless_block_both_ways,
+                       lossless_block_forward, lossless_layer_matrices, lossless_product, normal_component)
 from .ellipsometry import mueller_from_sums, pseudo_dielectric, psi_delta_from_mueller
-from .incoherent import combine, single_pass_transmission
+from .incoherent import combine, combine_normal, single_pass_transmission
 
 #: the keys of the dict `solve` returns
 KEYS = ("rs", "rp", "ts", "tp", "Rs", "Rp", "Ts", "Tp", "R", "T", "A",
@@ -48,26 +55,44 @@ class RawResponse:
             setattr(self, key, value)
 
 
-def solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg, *, pseudo_dielectric: bool = True):
+def solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg, *, pseudo_dielectric: bool = True,
+          quantities=None, fast_paths: bool = True):
     """Reflection, transmission and ellipsometric response of a layer stack.
 
     See the module docstring for inputs and outputs.  Scalars for wavelength
     or angle count as length-1 arrays.  With ``pseudo_dielectric=False`` the
     extra near-normal evaluation for <eps> at angles below NEAR_NORMAL_DEG is
     skipped (<eps> there is then NaN or round-off); fitters that do not use
-    <eps> may set it.
+    <eps> may set it.  ``quantities`` (a subset of KEYS) limits the returned
+    dict to those keys and skips the work only the others need (e.g. Mueller
+    elements, Psi/Delta and <eps> when only R and T are wanted).
+    ``fast_paths=False`` forces the general complex computation (for tests).
     """
+    wanted = _wanted(quantities)
     prepared = prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)
     n_full, d_full, coherent, k0, angle_rad, shape = prepared
-    raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad))
-    out = finish(raw, np.sin(angle_rad), n_full[0], shape)
+    raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad), fast_paths=fast_paths)
+    out = finish(raw, np.sin(angle_rad), n_full[0], shape, wanted)
     normal = angle_rad[:, 0] < np.radians(NEAR_NORMAL_DEG)
-    if pseudo_dielectric and np.any(normal):
+    if pseudo_dielectric and "eps_pseudo" in wanted and np.any(normal):
         near = np.full((int(normal.sum()), 1), np.radians(NEAR_NORMAL_DEG))
-        raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near))
+        raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near), fast_paths=fast_paths)
         near_shape = shape[:-2] + (near.shape[0], shape[-1])
-        out["eps_pseudo"][..., normal, :] = finish(raw_near, np.sin(near), n_full[0], near_shape)["eps_pseudo"]
+        out["eps_pseudo"][..., normal, :] = finish(raw_near, np.sin(near), n_full[0], near_shape,
+                                                   ("eps_pseudo",))["eps_pseudo"]
     return out
+
+
+def _wanted(quantities) -> tuple:
+    """The requested output keys, in KEYS order; all of them for None."""
+    if quantities is None:
+        return KEYS
+    if isinstance(quantities, str):
+        quantities = (quantities,)
+    unknown = [key for key in quantities if key not in KEYS]
+    if unknown:
+        raise LaminaInputError(f"unknown quantities {unknown}", _WHERE, "keys among " + " ".join(KEYS))
+    return tuple(key for key in KEYS if key in quantities)
 
 
 def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
@@ -133,7 +158,7 @@ def _as_1d(values, name):
     return arr
 
 
-def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
+def raw_response(n_full, d_full, coherent, k0, sin0, cos0, *, fast_paths: bool = True) -> RawResponse:
     """Amplitudes of the front part and the (R_s, R_p, X, T_s, T_p) sums.
 
     All arguments broadcast to the output shape; `coherent` has one flag per
@@ -141,38 +166,43 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
     (for an absorbing ambient: an incident wave whose planes of constant
     amplitude are parallel to the surface, the convention of the ``tmm``
     package), so every medium below has a well-defined forward wave.
+    With `fast_paths` (see the module docstring) the result is the same to round-off.
     """
     n_ambient = n_full[0]
     kx = n_ambient.real * sin0
     kx2 = kx * kx
     kx2_bound = float(np.max(np.abs(n_ambient.real))) ** 2  # |kx| <= Re(N_0)
-    eps = [n * n + 0j for n in n_full]  # + 0j: no -0.0 imaginary parts (see normal_component)
-    absorbing_ambient = bool(np.any(n_ambient.imag != 0))
-    q_ambient = normal_component(eps[0], kx2) if absorbing_ambient else n_ambient * cos0
-    q = [q_ambient] + [normal_component(e, kx2) for e in eps[1:]]
-
+    normal_only = fast_paths and not np.any(sin0)  # s and p are one problem: compute s only
     boundaries = [0] + [j + 1 for j, c in enumerate(coherent) if not c] + [len(n_full) - 1]
+    eps = {j: n_full[j] * n_full[j] + 0j for j in boundaries}  # + 0j: no -0.0 imaginary parts (normal_component)
+    absorbing_ambient = bool(np.any(n_ambient.imag != 0))
+    q = {j: normal_component(eps[j], kx2) for j in boundaries[1:]}
+    q[0] = normal_component(eps[0], kx2) if absorbing_ambient else n_ambient * cos0
     zeta = {j: q[j] / eps[j] for j in boundaries}  # p admittance (tangential-H form) of thick media
+
     blocks_s, blocks_p, passes = [], [], []
     for top, bottom in zip(boundaries[:-1], boundaries[1:]):
-        layers_s, layers_p = [], []
-        for j in range(top + 1, bottom):
-            cos_d, m12_s, m21_s, m12_p, m21_p = layer_matrices(q[j], eps[j], d_full[j - 1], k0, kx2_bound)
-            layers_s.append((cos_d, m12_s, m21_s))
-            layers_p.append((cos_d, m12_p, m21_p))
         is_last = bottom == boundaries[-1]
-        block = block_forward if is_last else block_both_ways
-        blocks_s.append(block(q[top], q[bottom], layers_s))
-        blocks_p.append(block(zeta[top], zeta[bottom], layers_p))
+        eta_s, eta_p = (q[top], q[bottom]), (zeta[top], zeta[bottom])
+        block_s, block_p = _coherent_block(n_full, d_full, range(top + 1, bottom), eta_s, eta_p, is_last,
+                                           k0, kx2, kx2_bound, normal_only, fast_paths)
+        blocks_s.append(block_s)
+        blocks_p.append(block_p)
         if not is_last:
             passes.append(single_pass_transmission(q[bottom], d_full[bottom - 1], k0))
 
+    rs, ts = blocks_s[0].r, blocks_s[0].t
+    exit_s = q[boundaries[-1]].real / q[0].real
+    if normal_only:
+        sums = combine_normal(blocks_s, passes)
+        ts_power = sums.ts2 * exit_s
+        # r_p = -r_s, t_p = t_s exactly (see _impose_normal_incidence)
+        return RawResponse(rs=rs, rp=-rs, ts=ts, tp=ts, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
+                           Ts=ts_power, Tp=ts_power)
     sums = combine(blocks_s, blocks_p, passes)
     front_bottom = boundaries[1]
-    rs, rp = blocks_s[0].r, blocks_p[0].r
-    ts = blocks_s[0].t
+    rp = blocks_p[0].r
     tp = blocks_p[0].t * (n_ambient / n_full[front_bottom])  # H-field ratio -> E-field ratio
-    exit_s = q[-1].real / q[0].real
     exit_p = zeta[boundaries[-1]].real / zeta[0].real
     raw = RawResponse(rs=rs, rp=rp, ts=ts, tp=tp, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
                       Ts=sums.ts2 * exit_s, Tp=sums.tp2 * exit_p)
@@ -180,6 +210,60 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0) -> RawResponse:
     if np.any(normal):
         _impose_normal_incidence(raw, normal)
     return raw
+
+
+def _coherent_block(n_full, d_full, inner, eta_s, eta_p, is_last, k0, kx2, kx2_bound, normal_only, fast_paths):
+    """BlockCoefficients (s, p) of the coherent layers `inner` between two thick media.
+
+    `eta_s`, `eta_p`: (top, bottom) admittances.  The p block is None when
+    `normal_only`.  A block of lossless layers is multiplied out in real
+    arithmetic; otherwise its lossless layers still get their matrices from
+    the real phase and the others from `layer_matrices`.
+    """
+    real_q = [_real_normal_component(n_full[j], kx2, normal_only) if fast_paths else None for j in inner]
+    lossless = [lossless_layer_matrices(*real, d_full[j - 1], k0, with_p=not normal_only)
+                if real is not None else None for j, real in zip(inner, real_q)]
+    if lossless and all(layer is not None for layer in lossless):
+        block = lossless_block_forward if is_last else lossless_block_both_ways
+        block_s = block(*eta_s, lossless_product([layer[:3] for layer in lossless]))
+        if normal_only:
+            return block_s, None
+        return block_s, block(*eta_p, lossless_product([(layer[0], layer[3], layer[4]) for layer in lossless]))
+    layers_s, layers_p = [], []
+    for j, layer in zip(inner, lossless):
+        if layer is not None:  # m12 = -i a, m21 = -i b (lossless_layer_matrices)
+            cos_d, a_s, b_s, a_p, b_p = layer
+            cos_d = cos_d.astype(complex)  # complex once, not at each product with complex elements
+            m12_s, m21_s = -1j * a_s, -1j * b_s
+            m12_p, m21_p = (None, None) if normal_only else (-1j * a_p, -1j * b_p)
+        else:
+            eps_j = n_full[j] * n_full[j] + 0j  # + 0j: see normal_component
+            cos_d, m12_s, m21_s, m12_p, m21_p = layer_matrices(
+                normal_component(eps_j, kx2), eps_j, d_full[j - 1], k0, kx2_bound, with_p=not normal_only)
+        layers_s.append((cos_d, m12_s, m21_s))
+        layers_p.append((cos_d, m12_p, m21_p))
+    block = block_forward if is_last else block_both_ways
+    return block(*eta_s, layers_s), None if normal_only else block(*eta_p, layers_p)
+
+
+def _real_normal_component(n, kx2, normal_only):
+    """(q, eps) as real arrays for a lossless layer with a propagating wave, else None.
+
+    Real N and eps - kx^2 > 0 make q = sqrt(eps - kx^2) real and positive (the
+    principal root the general path takes), so the layer's phase is real.  The
+    imaginary part is checked first: an absorbing layer costs one reduction.
+    """
+    if np.any(n.imag):
+        return None
+    if normal_only:  # kx = 0: q = sqrt(n^2) = |n|; eps serves only the p matrices, not computed
+        q = np.abs(n.real)
+        return (q, None) if q.min() > 0 else None
+    n_real = np.ascontiguousarray(n.real)
+    eps = n_real * n_real
+    argument = eps - kx2
+    if not argument.min() > 0:  # evanescent or grazing (q = 0) somewhere; NaN too
+        return None
+    return np.sqrt(argument), eps
 
 
 def _impose_normal_incidence(raw: RawResponse, normal):
@@ -196,22 +280,42 @@ def _impose_normal_incidence(raw: RawResponse, normal):
     raw.Tp = np.where(normal, raw.Ts, raw.Tp)
 
 
-def finish(raw: RawResponse, sin_theta, n_ambient, shape) -> dict:
-    """All output quantities, each broadcast to `shape`, from the raw sums."""
-    reflect = 0.5 * (raw.rs2 + raw.rp2)
-    transmit = 0.5 * (raw.Ts + raw.Tp)
-    cos_2theta = 1.0 - 2.0 * sin_theta * sin_theta
-    n_elem, c_elem, s_elem, polarization = mueller_from_sums(raw.rs2, raw.rp2, raw.cross, cos_2theta)
-    psi, delta = psi_delta_from_mueller(n_elem, c_elem, s_elem)
-    # the two-phase inversion needs the ambient's (complex) sine: N_0 sin th_0 = kx
-    sin_ambient = sin_theta * (n_ambient.real / n_ambient) if np.any(n_ambient.imag != 0) else sin_theta
-    eps = pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_ambient, n_ambient * n_ambient)
+#: outputs built from the Mueller elements
+_ELLIPSOMETRIC = frozenset(("psi", "delta", "N", "C", "S", "P", "eps_pseudo"))
+
+
+def finish(raw: RawResponse, sin_theta, n_ambient, shape, quantities=KEYS) -> dict:
+    """The requested output quantities (all by default), each broadcast to `shape`, from the raw sums."""
+    wanted = set(quantities)
     values = {"rs": raw.rs, "rp": raw.rp, "ts": raw.ts, "tp": raw.tp,
-              "Rs": raw.rs2, "Rp": raw.rp2, "Ts": raw.Ts, "Tp": raw.Tp,
-              "R": reflect, "T": transmit, "A": 1.0 - reflect - transmit,
-              "psi": psi, "delta": delta, "N": n_elem, "C": c_elem, "S": s_elem, "P": polarization,
-              "eps_pseudo": eps}
-    return {key: _full(values[key], shape) for key in KEYS}
+              "Rs": raw.rs2, "Rp": raw.rp2, "Ts": raw.Ts, "Tp": raw.Tp}
+    if wanted & {"R", "A"}:
+        values["R"] = 0.5 * (raw.rs2 + raw.rp2)
+    if wanted & {"T", "A"}:
+        values["T"] = 0.5 * (raw.Ts + raw.Tp)
+    if "A" in wanted:
+        values["A"] = 1.0 - values["R"] - values["T"]
+    if wanted & _ELLIPSOMETRIC:
+        cos_2theta = 1.0 - 2.0 * sin_theta * sin_theta
+        n_elem, c_elem, s_elem, polarization = mueller_from_sums(raw.rs2, raw.rp2, raw.cross, cos_2theta)
+        values.update(N=n_elem, C=c_elem, S=s_elem, P=polarization)
+        if wanted & {"psi", "delta"}:
+            values["psi"], values["delta"] = psi_delta_from_mueller(n_elem, c_elem, s_elem)
+        if "eps_pseudo" in wanted:
+            # the two-phase inversion needs the ambient's (complex) sine: N_0 sin th_0 = kx
+            sin_ambient = (sin_theta * (n_ambient.real / n_ambient) if np.any(n_ambient.imag != 0)
+                           else sin_theta)
+            values["eps_pseudo"] = pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_ambient,
+                                                     n_ambient * n_ambient)
+    out, seen = {}, set()
+    for key in KEYS:
+        if key in wanted:
+            value = _full(values[key], shape)
+            if id(value) in seen:  # the normal-incidence path shares arrays between s and p
+                value = value.copy()
+            seen.add(id(value))
+            out[key] = value
+    return out
 
 
 def _full(value, shape):

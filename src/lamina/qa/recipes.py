@@ -426,6 +426,16 @@ def _pick(result: Mapping[str, np.ndarray], quantity: str, polarization: str) ->
     return result[quantity + suffix]
 
 
+def _solver_keys(quantity: str, polarization: str) -> tuple[str, ...]:
+    """The solver outputs `_pick` reads for one request (so the solver skips the rest)."""
+    if quantity in ("psi", "delta"):
+        return (quantity,)
+    suffix = {"unpolarized": "", "s": "s", "p": "p"}[polarization]
+    if quantity == "A" and suffix:
+        return ("R" + suffix, "T" + suffix)
+    return (quantity + suffix,)
+
+
 class RecipeEvaluator:
     """Spectra of a recipe and of many perturbed copies of it, without Python loops over them.
 
@@ -471,8 +481,9 @@ class RecipeEvaluator:
                     scale = index_scale[:, j]
                     if np.any(scale != 1.0):
                         n_media[j + 1] = n_media[j + 1][None, :] * scale[:, None]
+            keys = {key for r in group["members"] for key in _solver_keys(r.quantity, r.polarization)}
             result = solve(n_media, thickness, coherent, group["grid"], np.array([group["angle"]]),
-                           pseudo_dielectric=False)  # <eps> is not needed here; skip its extra pass
+                           pseudo_dielectric=False, quantities=keys)  # only what the requests read
             for request in group["members"]:
                 values = np.asarray(_pick(result, request.quantity, request.polarization))
                 values = values.reshape(batch, -1)  # (B, 1, W) -> (B, W)
