@@ -239,3 +239,12 @@ def test_plots_come_in_job_order_with_their_file_names(tmp_path, samples):
     html = render_report(tmp_path)
     names = re.findall(r'<figcaption><span class="mono">([^<]+)</span>', html)
     assert names == ["map_t_LK-0412-03.png", "radial_t.png", "histogram_t.png", "trend_t.png", "zz_extra.png"]
+
+
+@pytest.mark.parametrize("reduced, status", [(1.1, "pass"), (7.9, "warn"), (0.05, "warn")])
+def test_converged_fit_with_odd_chi_square_asks_for_review(tmp_path, samples, reduced, status):
+    result = samples.fit_result()
+    result["warnings"] = []
+    result["statistics"]["reduced_chi2"] = reduced
+    (tmp_path / "result.json").write_text(json.dumps(result))
+    assert f'<div class="verdict {status}" data-kind="fit">' in render_report(tmp_path)

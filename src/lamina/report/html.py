@@ -190,8 +190,9 @@ def fit_section(result: dict, folder: Path) -> dict:
     converged = result.get("converged")
     reduced = _float(stats.get("reduced_chi2"))
     reasons = []
+    chi2_off = reduced is not None and not (CHI2_LOW <= reduced <= CHI2_HIGH)
     if converged is True:
-        status = "warn" if warnings else "pass"
+        status = "warn" if warnings or chi2_off else "pass"
         headline = "Fit converged" + (f" with {len(warnings)} warning{'s' if len(warnings) != 1 else ''}"
                                       if warnings else "")
     elif converged is False:
