@@ -79,6 +79,14 @@ def test_normal_incidence_lossless_batches_match_general_path(seed):
     assert_paths_agree(n, thickness, flags, 0.0)
 
 
+@pytest.mark.parametrize("seed", range(3))
+def test_repeated_normal_angles_match_general_path(seed):
+    # several angles, all 0: the ambient admittance has an angle axis the layers lack
+    rng = np.random.default_rng(seed)
+    n, thickness, flags = random_stack(rng, absorbing_share=0.3 * seed, slabs=seed % 2, batch=4)
+    assert_paths_agree(n, thickness, flags, np.array([0.0, 0.0]))
+
+
 @pytest.mark.parametrize("seed", range(20, 44))
 def test_random_stacks_and_angles_match_general_path(seed):
     # absorbing and transparent layers, slabs, angles including 0 mixed with oblique ones
@@ -138,17 +146,21 @@ def test_paths_taken():
     def solve(*args, **kw):  # without the extra 0.01 deg pass for <eps>
         return solver.solve(*args, pseudo_dielectric=False, **kw)
 
-    with mock.patch.object(solver, "lossless_product", wraps=coherent.lossless_product) as product, \
+    def counts():
+        return real_block.call_count, normal.call_count, real_layer.call_count, general.call_count
+
+    with mock.patch.object(solver, "lossless_block_forward", wraps=coherent.lossless_block_forward) as real_block, \
             mock.patch.object(solver, "combine_normal", wraps=solver.combine_normal) as normal, \
+            mock.patch.object(solver, "lossless_layer_matrices", wraps=coherent.lossless_layer_matrices) as real_layer, \
             mock.patch.object(solver, "layer_matrices", wraps=coherent.layer_matrices) as general:
         solve(lossless, *layers, WAVELENGTHS, 0.0)
-        assert (product.call_count, normal.call_count, general.call_count) == (1, 1, 0)  # s only, real
+        assert counts() == (1, 1, 2, 0)  # s only, real
         solve(lossless, *layers, WAVELENGTHS, [0.0, 60.0])
-        assert (product.call_count, normal.call_count, general.call_count) == (3, 1, 0)  # s and p, real
+        assert counts() == (3, 1, 4, 0)  # s and p, real
         solve(absorbing, *layers, WAVELENGTHS, 0.0)
-        assert (product.call_count, normal.call_count, general.call_count) == (3, 2, 1)  # absorber: complex
+        assert counts() == (3, 2, 5, 1)  # the absorber complex, the other layer real, complex product
         solve(lossless, *layers, WAVELENGTHS, 0.0, fast_paths=False)
-        assert (product.call_count, normal.call_count, general.call_count) == (3, 2, 3)
+        assert counts() == (3, 2, 5, 3)
 
 
 def test_lossless_layer_matrices_match_the_complex_ones():

@@ -138,27 +138,32 @@ def lossless_layer_matrices(q, eps, thickness_nm, k0_per_nm, with_p=True):
     return cos_d, a_s, b_s, a_s * eps, b_s / eps
 
 
-def lossless_product(layers):
-    """M = M_1 ... M_m of lossless layers given as (cos_d, a, b), top to bottom.
+class LosslessProduct:
+    """Running product M = M_1 M_2 ... of lossless layers, top to bottom.
 
     Products of matrices [[c, -i a], [-i b, c]] with real c, a, b keep the form
-    [[m11, -i x], [-i y, m22]] with all four real: returns (m11, x, y, m22).
-    Real arithmetic on four arrays costs about a third of the complex matrix
-    product.
+    [[m11, -i x], [-i y, m22]] with all four real (``elements``), so real
+    arithmetic on four arrays replaces the complex matrix product.  Each layer
+    is folded in by `multiply` as soon as its matrix exists: the arrays in
+    flight stay few (cache).
     """
-    m11, x, y, m22 = layers[0][0], layers[0][1], layers[0][2], layers[0][0]
-    if len(layers) == 1:
-        return m11, x, y, m22
-    # the second layer's product allocates the four result arrays; later layers
-    # update them in place through two scratch arrays
-    cos_d, a, b = layers[1]
-    m11, x, y, m22 = m11 * cos_d - x * b, m11 * a + x * cos_d, y * cos_d + m22 * b, m22 * cos_d - y * a
-    full = np.broadcast_shapes(*(element.shape for layer in layers[2:] for element in layer), m11.shape)
-    if m11.shape != full:  # a later layer has more batch or angle axes
-        m11, x, y, m22 = (np.array(np.broadcast_to(element, full)) for element in (m11, x, y, m22))
-    first, second = np.empty(full), np.empty(full)
-    for cos_d, a, b in layers[2:]:
-        # [[m11, -ix], [-iy, m22]] @ [[c, -ia], [-ib, c]]
+
+    def __init__(self):
+        self.elements = None  # (m11, x, y, m22)
+        self._scratch = None
+
+    def multiply(self, cos_d, a, b) -> "LosslessProduct":
+        """M <- M @ [[cos_d, -i a], [-i b, cos_d]]."""
+        if self.elements is None:
+            self.elements = (cos_d, a, b, cos_d)  # shared with the layer: the next step allocates
+            return self
+        m11, x, y, m22 = self.elements
+        if self._scratch is None or np.broadcast_shapes(m11.shape, cos_d.shape) != m11.shape:
+            # first product, or a layer with more batch/angle axes: new arrays, updated in place from here on
+            self.elements = (m11 * cos_d - x * b, m11 * a + x * cos_d, y * cos_d + m22 * b, m22 * cos_d - y * a)
+            self._scratch = (np.empty(self.elements[0].shape), np.empty(self.elements[0].shape))
+            return self
+        first, second = self._scratch
         np.multiply(x, b, out=first)      # x b, for m11
         np.multiply(m11, a, out=second)   # m11 a, for x
         m11 *= cos_d
@@ -171,15 +176,35 @@ def lossless_product(layers):
         m22 -= first
         y *= cos_d
         y += second
-    return m11, x, y, m22
+        return self
+
+
+def lossless_product(layers):
+    """(m11, x, y, m22) of the product of lossless layers given as (cos_d, a, b), top to bottom."""
+    product = LosslessProduct()
+    for cos_d, a, b in layers:
+        product.multiply(cos_d, a, b)
+    return product.elements
 
 
 def lossless_block_forward(eta_top, eta_bottom, product):
-    """`block_forward` from a lossless product (m11, x, y, m22) (see `lossless_product`)."""
+    """`block_forward` from a lossless product (m11, x, y, m22) (see `LosslessProduct`)."""
     m11, x, y, m22 = product
-    b = m11 - 1j * (x * eta_bottom)
-    c = m22 * eta_bottom - 1j * y
-    return _coefficients(eta_top, eta_bottom, b, c)
+    b = np.multiply(x, -1j * eta_bottom)  # (B, C) = M (1, eta_bottom) = (m11 - i x eta, m22 eta - i y)
+    c = np.multiply(m22, eta_bottom)
+    shape = b.shape
+    if c.shape != shape or np.broadcast_shapes(shape, np.shape(eta_top), m11.shape, y.shape) != shape:
+        return _coefficients(eta_top, eta_bottom, b + m11, c - 1j * y)
+    # `_coefficients` in place on the two new arrays: allocating a large array
+    # costs about as much as the arithmetic on it (same operations, same numbers)
+    b.real += m11
+    c.imag -= y
+    b *= eta_top
+    denominator = b + c
+    r = np.subtract(b, c, out=b)
+    np.divide(r, denominator, out=r)
+    t = np.divide(2.0 * eta_top, denominator, out=denominator)
+    return BlockCoefficients(r, t, eta_top, eta_bottom)
 
 
 def lossless_block_both_ways(eta_top, eta_bottom, product):

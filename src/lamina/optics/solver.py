@@ -28,8 +28,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import LaminaInputError
-from .coherent import (block_both_ways, block_forward, layer_matrices, lossless_block_both_ways,
-                       lossless_block_forward, lossless_layer_matrices, lossless_product, normal_component)
+from .coherent import (LosslessProduct, block_both_ways, block_forward, layer_matrices, lossless_block_both_ways,
+                       lossless_block_forward, lossless_layer_matrices, normal_component)
 from .ellipsometry import mueller_from_sums, pseudo_dielectric, psi_delta_from_mueller
 from .incoherent import combine, combine_normal, single_pass_transmission
 
@@ -99,7 +99,7 @@ def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
     """Check the inputs and give them broadcastable shapes (*batch, A, W).
 
     Returns (n_full, d_full, coherent, k0, angle_rad, shape): indices as
-    (*batch, 1, W), thicknesses as (*batch, 1, 1), k0 = 2 pi / lambda as (W,),
+    (*batch, 1, W) (complex, or float where given real), thicknesses as (*batch, 1, 1), k0 = 2 pi / lambda as (W,),
     angles (radians) as (A, 1), and the full output shape.
     """
     wavelength = _as_1d(wavelength_nm, "wavelength_nm")
@@ -121,7 +121,9 @@ def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
     width = wavelength.size
     indices, batch_shapes = [], []
     for pos, n in enumerate(n_media):
-        n = np.asarray(n, dtype=complex)
+        n = np.asarray(n)
+        # a real index array stays real (half the memory, and no scan of its imaginary part)
+        n = n.astype(float if n.dtype.kind in "biuf" else complex, copy=False)
         if n.ndim == 0:
             n = np.full(width, n)
         if n.shape[-1] not in (width, 1):
@@ -217,22 +219,25 @@ def _coherent_block(n_full, d_full, inner, eta_s, eta_p, is_last, k0, kx2, kx2_b
 
     `eta_s`, `eta_p`: (top, bottom) admittances.  The p block is None when
     `normal_only`.  A block of lossless layers is multiplied out in real
-    arithmetic; otherwise its lossless layers still get their matrices from
-    the real phase and the others from `layer_matrices`.
+    arithmetic, each layer folded into the product as soon as it is computed;
+    otherwise its lossless layers still get their matrices from the real phase
+    and the others from `layer_matrices`.
     """
     real_q = [_real_normal_component(n_full[j], kx2, normal_only) if fast_paths else None for j in inner]
-    lossless = [lossless_layer_matrices(*real, d_full[j - 1], k0, with_p=not normal_only)
-                if real is not None else None for j, real in zip(inner, real_q)]
-    if lossless and all(layer is not None for layer in lossless):
+    if real_q and all(real is not None for real in real_q):
+        product_s, product_p = LosslessProduct(), LosslessProduct()
+        for j, (q, eps) in zip(inner, real_q):
+            cos_d, a_s, b_s, a_p, b_p = lossless_layer_matrices(q, eps, d_full[j - 1], k0, with_p=not normal_only)
+            product_s.multiply(cos_d, a_s, b_s)
+            if not normal_only:
+                product_p.multiply(cos_d, a_p, b_p)
         block = lossless_block_forward if is_last else lossless_block_both_ways
-        block_s = block(*eta_s, lossless_product([layer[:3] for layer in lossless]))
-        if normal_only:
-            return block_s, None
-        return block_s, block(*eta_p, lossless_product([(layer[0], layer[3], layer[4]) for layer in lossless]))
+        block_s = block(*eta_s, product_s.elements)
+        return block_s, None if normal_only else block(*eta_p, product_p.elements)
     layers_s, layers_p = [], []
-    for j, layer in zip(inner, lossless):
-        if layer is not None:  # m12 = -i a, m21 = -i b (lossless_layer_matrices)
-            cos_d, a_s, b_s, a_p, b_p = layer
+    for j, real in zip(inner, real_q):
+        if real is not None:  # m12 = -i a, m21 = -i b (lossless_layer_matrices)
+            cos_d, a_s, b_s, a_p, b_p = lossless_layer_matrices(*real, d_full[j - 1], k0, with_p=not normal_only)
             cos_d = cos_d.astype(complex)  # complex once, not at each product with complex elements
             m12_s, m21_s = -1j * a_s, -1j * b_s
             m12_p, m21_p = (None, None) if normal_only else (-1j * a_p, -1j * b_p)
@@ -253,10 +258,10 @@ def _real_normal_component(n, kx2, normal_only):
     principal root the general path takes), so the layer's phase is real.  The
     imaginary part is checked first: an absorbing layer costs one reduction.
     """
-    if np.any(n.imag):
+    if np.iscomplexobj(n) and np.any(n.imag):
         return None
-    if normal_only:  # kx = 0: q = sqrt(n^2) = |n|; eps serves only the p matrices, not computed
-        q = np.abs(n.real)
+    if normal_only:  # kx = 0: q = sqrt(n^2) = n for n > 0; eps serves only the p matrices, not computed
+        q = np.ascontiguousarray(n.real)
         return (q, None) if q.min() > 0 else None
     n_real = np.ascontiguousarray(n.real)
     eps = n_real * n_real

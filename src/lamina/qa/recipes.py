@@ -480,7 +480,9 @@ class RecipeEvaluator:
                 if index_scale is not None:
                     scale = index_scale[:, j]
                     if np.any(scale != 1.0):
-                        n_media[j + 1] = n_media[j + 1][None, :] * scale[:, None]
+                        n = n_media[j + 1]
+                        n = n if np.any(n.imag) else n.real  # a real index stays real: half the work
+                        n_media[j + 1] = n[None, :] * scale[:, None]
             keys = {key for r in group["members"] for key in _solver_keys(r.quantity, r.polarization)}
             result = solve(n_media, thickness, coherent, group["grid"], np.array([group["angle"]]),
                            pseudo_dielectric=False, quantities=keys)  # only what the requests read
