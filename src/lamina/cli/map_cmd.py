@@ -47,22 +47,22 @@ def add_arguments(parser) -> None:
     where.add_argument("--scheduler", metavar="ADDRESS",
                        help="send the work to a running dask.distributed scheduler, e.g. tcp://host:8786")
     parser.add_argument("--chunk-size", type=_positive_int, metavar="SITES",
-                        help="sites per dask task (default: about four tasks per worker, at most 50 sites)")
+                        help="sites per dask task (default: about eight tasks per worker, at most 25 sites)")
     parser.add_argument("--quiet", action="store_true", help="no progress bar and no summary on the terminal")
     parser.add_argument("-o", "--output", required=True, metavar="OUTDIR", help="folder for the results")
 
 
 def run(args) -> int:
-    from ..qa import maps
+    from ..qa import maps  # light: numpy only, so the fork server below starts at once
 
     if not args.scheduler:
-        maps.prepare_local_workers()  # the workers' imports overlap reading the inputs
+        maps.prepare_local_workers()  # the workers' imports overlap importing dask and reading the inputs
     outdir = _output_folder(args.output, create=False)
     _refuse_overwriting_inputs(outdir, [args.mapfile, args.model, args.spec])
     stack, free, spec = _read_model_and_spec(args)
     # model and spec are good: start the workers now, so that they spawn while the map is read
     starting = _start_cluster(maps, args.workers, args.scheduler)
-    _import_in_background(PLOT_MODULES)  # ready by the time the plots are drawn; idle core meanwhile
+    _import_in_background(OUTPUT_MODULES)  # ready by the time the outputs are written
     try:
         dataset, geometry = _read_map_checked(args.mapfile, stack, spec)
         _output_folder(args.output, create=True)
@@ -72,17 +72,14 @@ def run(args) -> int:
     session = starting.result()
     bar = _progress(dataset.sizes["site"], args.quiet)  # after start-up: its rate is the fitting rate
     try:
-        outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update)
-    except BaseException:
-        session.close()
-        raise
+        # the workers draw the plots afterwards: each imports the plotting stack when its fits are done
+        outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update,
+                                then_import=PLOT_MODULES)
+        bar.close()
+        summary = _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes, session)
     finally:
         bar.close()
-    closing = session.close_in_background()  # workers stop while the outputs are written
-    try:
-        summary = _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes)
-    finally:
-        closing.join()
+        session.close()  # waits for the close started in the background, if any
     if not args.quiet:
         _print_summary(summary, free, outdir)
     return summary["exit_code"]
@@ -112,23 +109,29 @@ def _read_map_checked(mapfile, stack, spec):
     return dataset, geometry
 
 
-def _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes) -> dict:
+def _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes, session) -> dict:
+    """Results, summary and every output; the plots are drawn on the cluster while the tables are written."""
     from ..qa import maps
-    from ..report.html import write_report
     units = {name: spec_.unit for name, spec_ in stack.specs().items() if name in free}
     results = maps.results_dataset(dataset, outcomes, free, geometry, spec, units)
     summary = maps.summarize(results, free, spec)
     summary["inputs"] = {"map": str(args.mapfile), "model": str(args.model),
                          "spec": str(args.spec) if args.spec else None}
     summary["exit_code"] = maps.exit_code(summary)
-    write_outputs(outdir, results, summary, free, units, geometry, spec)
+    write_outputs(outdir, results, summary, free, units, geometry, spec, client=session.client)
+    closing = session.close_in_background()  # workers stop while the report is written
+    from ..report.html import write_report
     write_report(outdir)
+    closing.join()
     return summary
 
 
-#: what drawing the plots imports (about a second): imported in a thread while the sites are fitted
+#: what writing the tables and the report imports in this process: imported in a thread while the
+#: sites are fitted (the plots are drawn on the workers, so matplotlib never loads here)
+OUTPUT_MODULES = ("scipy.io", "lamina.data.writers", "lamina.report.html", "jinja2")
+#: what drawing the plots imports on a worker (about half a second)
 PLOT_MODULES = ("matplotlib.figure", "matplotlib.backends.backend_agg", "scipy.interpolate",
-                "lamina.report.plots_map", "lamina.report.html")
+                "lamina.report.plots_map")
 
 
 def _import_in_background(modules) -> None:
@@ -214,15 +217,40 @@ def _progress(total: int, quiet: bool):
 
 # -- outputs --------------------------------------------------------------------------------
 
-def write_outputs(outdir: Path, results, summary: dict, parameters: list[str], units: dict, geometry, spec):
-    """sites.csv, results.nc, summary.json, plots, and for several wafers wafers.csv and trend plots."""
+def write_outputs(outdir: Path, results, summary: dict, parameters: list[str], units: dict, geometry, spec,
+                  client=None):
+    """sites.csv, results.nc, summary.json, plots, and for several wafers wafers.csv and trend plots.
+
+    With a dask `client` the plots are drawn on its workers (each plot is one task) while the
+    tables are written here; the PNG bytes come back and are written here, so workers need no
+    access to OUTDIR.
+    """
     from ..data.writers import atomic_write_text, write_netcdf_file
+    jobs = plot_jobs(results, summary, parameters, units, geometry, spec)
+    drawn = _draw_on(client, jobs) if client is not None else None
     atomic_write_text(outdir / "sites.csv", sites_csv(results, parameters))
     write_netcdf_file(results, outdir / "results.nc")
     atomic_write_text(outdir / "summary.json", json.dumps(_json_safe(summary), indent=2) + "\n")
     if summary["n_wafers"] > 1:
         atomic_write_text(outdir / "wafers.csv", wafers_csv(summary, parameters))
-    write_plots(outdir, results, summary, parameters, units, geometry, spec)
+    if drawn is None:
+        from ..report import plots_map
+        drawn = [plots_map.render(kind, *arguments) for _, kind, arguments in jobs]
+    for (name, _, _), png in zip(jobs, drawn):
+        _write_bytes(outdir / name, png)
+
+
+def _draw_on(client, jobs):
+    """The PNG bytes of every plot job, in order, drawn on the cluster's workers in parallel."""
+    from ..report.plots_map import render  # a light module: matplotlib loads only inside the plot functions
+    futures = [client.submit(render, kind, *arguments, pure=False) for _, kind, arguments in jobs]
+    return (future.result() for future in futures)
+
+
+def _write_bytes(path: Path, data: bytes) -> None:
+    from ..data.writers import atomic_write
+    with atomic_write(path, "wb") as handle:
+        handle.write(data)
 
 
 def _csv_cell(value) -> str:
@@ -283,9 +311,10 @@ def _safe_name(text: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "._-" else "_" for ch in text)
 
 
-def write_plots(outdir: Path, results, summary: dict, parameters: list[str], units: dict, geometry, spec):
-    from ..report import plots_map
+def plot_jobs(results, summary: dict, parameters: list[str], units: dict, geometry, spec) -> list[tuple]:
+    """(file name, plot kind, arguments of `plots_map.render`) of every plot; each is independent."""
     wafers = list(summary["wafers"])
+    jobs = []
     for name in parameters:
         unit = units.get(name, "")
         limits = spec.limits.get(name) if spec is not None else None
@@ -293,12 +322,20 @@ def write_plots(outdir: Path, results, summary: dict, parameters: list[str], uni
             part = results.isel(site=(results["wafer"].values == wafer).nonzero()[0])
             suffix = f"_{_safe_name(wafer)}" if len(wafers) > 1 else ""
             title = f"{name}" + (f", wafer {wafer}" if len(wafers) > 1 else "")
-            plots_map.wafer_map(outdir / f"map_{_safe_name(name)}{suffix}.png", part, name, geometry, unit,
-                                title, limits)
-        plots_map.histogram(outdir / f"histogram_{_safe_name(name)}.png", results, name, unit, limits)
-        plots_map.radial_profile(outdir / f"radial_{_safe_name(name)}.png", results, name, geometry, unit, limits)
+            jobs.append((f"map_{_safe_name(name)}{suffix}.png", "wafer_map",
+                         (part, name, geometry, unit, title, limits)))
+        jobs.append((f"histogram_{_safe_name(name)}.png", "histogram", (results, name, unit, limits)))
+        jobs.append((f"radial_{_safe_name(name)}.png", "radial_profile", (results, name, geometry, unit, limits)))
         if len(wafers) > 1:
-            plots_map.trend(outdir / f"trend_{_safe_name(name)}.png", summary, name, unit, limits)
+            jobs.append((f"trend_{_safe_name(name)}.png", "trend", (summary, name, unit, limits)))
+    return jobs
+
+
+def write_plots(outdir: Path, results, summary: dict, parameters: list[str], units: dict, geometry, spec):
+    """Every plot, drawn here one after the other."""
+    from ..report import plots_map
+    for name, kind, arguments in plot_jobs(results, summary, parameters, units, geometry, spec):
+        _write_bytes(outdir / name, plots_map.render(kind, *arguments))
 
 
 def _print_summary(summary: dict, parameters: list[str], outdir: Path) -> None:

@@ -42,13 +42,15 @@ import logging
 import math
 import os
 from pathlib import Path
-from typing import Callable, Iterable
+from typing import TYPE_CHECKING, Callable, Iterable
 
 import numpy as np
-import xarray as xr
 
 from ..errors import LaminaInputError
 from .wafer import WaferGeometry, map_statistics, reference_site
+
+if TYPE_CHECKING:
+    import xarray as xr  # imported where used: `lamina map` starts its workers before paying for xarray
 
 #: columns that say where a row belongs (everything else goes to the measurement reader)
 SITE_COLUMNS = ("site", "x_mm", "y_mm")
@@ -224,6 +226,7 @@ def _common_grid(parsed: list, problems: list, labels, where, label) -> int:
 
 def _stack_sites(template: xr.Dataset, parsed, problems, labels, wafers, x_mm, y_mm, has_wafer) -> xr.Dataset:
     """Stack the site grids along a new `site` dim (numpy, not xr.concat: maps are long); unreadable = NaN."""
+    import xarray as xr
     data_vars = {}
     for name in template.data_vars:
         blank = np.full(template[name].shape, np.nan)
@@ -398,8 +401,10 @@ class MapCluster:
     """
 
     def __init__(self, workers: int | None = None, scheduler: str | None = None, connect_timeout: str = "10s"):
+        import threading
         from distributed import Client, LocalCluster
         self.cluster = None
+        self._closing, self._closed = threading.Lock(), False
         if scheduler:
             try:
                 self.client = Client(scheduler, timeout=connect_timeout)
@@ -428,9 +433,14 @@ class MapCluster:
                     os.environ[name] = value
 
     def close(self) -> None:
-        self.client.close()
-        if self.cluster is not None:
-            self.cluster.close()
+        """Stop what was started; a second call waits for the first (e.g. one in the background)."""
+        with self._closing:
+            if self._closed:
+                return
+            self._closed = True
+            self.client.close()
+            if self.cluster is not None:
+                self.cluster.close()
 
     def close_in_background(self):
         import threading
@@ -446,8 +456,11 @@ class MapCluster:
 
 
 #: modules every worker needs; imported once in the fork server instead of once per worker
-WORKER_PRELOAD = ("numpy", "scipy.optimize", "lmfit", "xarray", "lamina.fit.engine", "lamina.optics.solver",
-                  "lamina.qa.maps")
+#: ("distributed" first: its own preload, which it would otherwise set on first use)
+#: (xarray imports dask.array the first time it indexes anything when dask is installed: a quarter
+#: of a second that would otherwise delay every worker's first site)
+WORKER_PRELOAD = ("distributed", "numpy", "scipy.optimize", "lmfit", "xarray", "dask.array", "lamina.fit.engine",
+                  "lamina.optics.solver", "lamina.qa.maps")
 
 
 _FORKSERVER_LOCK = __import__("threading").Lock()
@@ -455,21 +468,21 @@ _forkserver_ready = False
 
 
 def _configure_forkserver() -> bool:
-    """Give the forkserver lamina's preload list (once per process); False where forkserver does not exist."""
+    """Start the fork server with lamina's preload list (once per process); False where forkserver does not exist.
+
+    Started here, before dask is even imported in this process, so that the server's imports
+    (some seconds) overlap everything the caller does meanwhile; distributed's own later
+    request for a preload list then finds the server running and changes nothing.
+    """
     global _forkserver_ready
     import multiprocessing
     if "forkserver" not in multiprocessing.get_all_start_methods():
         return False
     with _FORKSERVER_LOCK:
         if not _forkserver_ready:
-            import dask
-            from distributed.utils import get_mp_context
-            with dask.config.set({"distributed.worker.multiprocessing-method": "forkserver"}):
-                context = get_mp_context()  # distributed sets its own preload list on the first call
             from multiprocessing import forkserver
-            current = getattr(getattr(forkserver, "_forkserver", None), "_preload_modules", None) or ["distributed"]
-            # takes effect when the server starts, i.e. with the first worker of the process
-            context.set_forkserver_preload(list(dict.fromkeys(list(current) + list(WORKER_PRELOAD))))
+            multiprocessing.get_context("forkserver").set_forkserver_preload(list(WORKER_PRELOAD))
+            forkserver.ensure_running()
             _forkserver_ready = True
     return True
 
@@ -478,18 +491,29 @@ def prepare_local_workers() -> None:
     """Start the warm fork server in a background thread, ahead of the cluster.
 
     Its imports (some seconds) then overlap whatever the caller does meanwhile
-    (reading the model and the map); nothing to undo if the caller stops early.
+    (importing dask, reading the model and the map); nothing to undo if the caller stops early.
     """
     import threading
 
     def start():
         try:
-            if _configure_forkserver():
-                from multiprocessing import forkserver
-                forkserver.ensure_running()
+            _configure_forkserver()
         except Exception:  # the cluster start reports any real problem
             pass
     threading.Thread(target=start, name="lamina-forkserver", daemon=True).start()
+
+
+def _import_when_idle(client, modules) -> list:
+    """A task on every worker, after every fit (lower priority), that imports `modules`."""
+    return [client.submit(_import_modules, tuple(modules), priority=-10, pure=False, workers=[address],
+                          allow_other_workers=False)
+            for address in _worker_addresses(client)]
+
+
+def _import_modules(modules) -> None:
+    import importlib
+    for name in modules:
+        importlib.import_module(name)
 
 
 @contextlib.contextmanager
@@ -545,8 +569,13 @@ def _chunks(indices: list[int], size: int) -> list[list[int]]:
 
 
 def choose_chunk_size(n_sites: int, n_workers: int) -> int:
-    """About four chunks per worker (load balance) and at most 50 sites per chunk."""
-    return int(max(1, min(50, math.ceil(n_sites / max(1, 4 * n_workers)))))
+    """About eight chunks per worker and at most 25 sites per chunk.
+
+    Small enough that the workers finish within about half a chunk of each other (a
+    25-site chunk of a simple model is a few tenths of a second), large enough that
+    dask's per-task cost (about a millisecond) stays far below the fitting time.
+    """
+    return int(max(1, min(25, math.ceil(n_sites / max(1, 8 * n_workers)))))
 
 
 def _workers_of(client) -> int:
@@ -554,8 +583,12 @@ def _workers_of(client) -> int:
 
 
 def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
-            chunk_size: int | None = None, progress: Callable[[int], None] | None = None) -> list[dict]:
+            chunk_size: int | None = None, progress: Callable[[int], None] | None = None,
+            then_import: Iterable[str] = ()) -> list[dict]:
     """Fit every site of `dataset` on the dask `client`; one outcome dict per site, in site order.
+
+    `then_import`: modules that every worker imports once it has no fit left to do (e.g. the
+    plotting stack, for plots drawn on the workers afterwards), so that no fit waits for them.
 
     Outcome keys: index, status ("fitted" or "failed"), reduced_chi2, values,
     stderr (by parameter name), warnings, global_search, reason, reference
@@ -607,6 +640,7 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
         for chunk in _chunks(todo, size):
             futures[client.submit(fit_chunk, seed, dataset.isel(site=chunk), chunk, site_fit, False,
                                   pure=False)] = chunk
+    after = _import_when_idle(client, then_import) if then_import else []
     _collect(futures, outcomes, tick, as_completed)
 
     # 3. outliers again with the global search, from the model's own start
@@ -622,7 +656,9 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
                     better["reduced_chi2"] < outcomes[i]["reduced_chi2"]:
                 outcomes[i] = better
             outcomes[i]["refit"] = True
-    del warm  # held until here so that the warm-up tasks are not cancelled early
+    # held until here so that the warm-up tasks are not cancelled early; an import still waiting
+    # behind the last fits is dropped (the modules then load when they are first used)
+    del warm, after
     for outcome in outcomes:
         outcome.setdefault("reference", False)
         outcome.setdefault("refit", False)
@@ -658,6 +694,7 @@ def outlier_sites(outcomes: Iterable[dict]) -> list[int]:
 def results_dataset(dataset: xr.Dataset, outcomes: list[dict], parameters: list[str],
                     geometry: WaferGeometry, spec=None, units: dict | None = None) -> xr.Dataset:
     """Per-site results (dim site): status, pass, reduced_chi2, <name>, <name>.stderr, reason."""
+    import xarray as xr
     units = units or {}
     x_mm = dataset["x_mm"].values.astype(float)
     y_mm = dataset["y_mm"].values.astype(float)

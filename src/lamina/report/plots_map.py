@@ -1,7 +1,7 @@
 """Wafer-map plots: filled contour map, histogram, radial profile, per-wafer trend.
 
 Every figure uses matplotlib's Agg canvas (no display needed) and is written
-atomically.  Coordinates are mm with equal aspect; the wafer outline has its
+atomically, or returned as PNG bytes when the path is None (`render`).  Coordinates are mm with equal aspect; the wafer outline has its
 notch at the bottom; the edge-exclusion ring is dashed; sites outside it are
 drawn hollow because statistics and limits ignore them.
 """
@@ -31,12 +31,28 @@ def _figure(width=6.0, height=5.2):
     return fig, fig.add_subplot(1, 1, 1)
 
 
-def _save(fig, path) -> Path:
+def _save(fig, path):
+    """Write the PNG to `path` (atomically) and return the path; with path None return the PNG bytes."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     FigureCanvasAgg(fig)
+    if path is None:
+        import io
+        buffer = io.BytesIO()
+        fig.savefig(buffer, format="png")
+        return buffer.getvalue()
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format="png")
     return Path(path)
+
+
+def render(kind: str, *args, **kwargs) -> bytes:
+    """PNG bytes of one plot (`kind` names a plot function: wafer_map, histogram, radial_profile, trend).
+
+    The plots are independent of each other and need no file system: `lamina map` draws them
+    as tasks on its dask workers, which are idle once the sites are fitted, and writes the bytes.
+    """
+    plots = {"wafer_map": wafer_map, "histogram": histogram, "radial_profile": radial_profile, "trend": trend}
+    return plots[kind](None, *args, **kwargs)
 
 
 def _label(name: str, unit: str) -> str:
@@ -75,7 +91,7 @@ def _interpolate(x_mm, y_mm, values, geometry: WaferGeometry, points: int = 121)
 
 
 def wafer_map(path, results, name: str, geometry: WaferGeometry, unit: str = "", title: str = "",
-              limits: tuple[float, float] | None = None) -> Path:
+              limits: tuple[float, float] | None = None) -> Path | bytes:
     """Filled contour of parameter `name` over the wafer with the sites marked and labelled."""
     fig, ax = _figure()
     x_mm = results["x_mm"].values
@@ -156,7 +172,7 @@ def _mm_axes(ax, geometry: WaferGeometry) -> None:
 
 
 def histogram(path, results, name: str, unit: str = "", limits: tuple[float, float] | None = None,
-              title: str = "") -> Path:
+              title: str = "") -> Path | bytes:
     """Histogram of a parameter over the fitted sites inside the edge exclusion, limits as lines."""
     fig, ax = _figure(6.0, 4.0)
     use = np.isfinite(results[name].values) & (results["in_zone"].values == 1)
@@ -177,7 +193,7 @@ def histogram(path, results, name: str, unit: str = "", limits: tuple[float, flo
 
 
 def radial_profile(path, results, name: str, geometry: WaferGeometry, unit: str = "",
-                   limits: tuple[float, float] | None = None, title: str = "") -> Path:
+                   limits: tuple[float, float] | None = None, title: str = "") -> Path | bytes:
     """Value against distance from the centre, one marker style per wafer; exclusion shaded."""
     fig, ax = _figure(6.0, 4.0)
     radius = results["radius_mm"].values
@@ -205,7 +221,8 @@ def radial_profile(path, results, name: str, geometry: WaferGeometry, unit: str 
     return _save(fig, path)
 
 
-def trend(path, summary: dict, name: str, unit: str = "", limits: tuple[float, float] | None = None) -> Path:
+def trend(path, summary: dict, name: str, unit: str = "",
+          limits: tuple[float, float] | None = None) -> Path | bytes:
     """Mean of a parameter per wafer (file order) with bars from min to max."""
     fig, ax = _figure(max(5.0, 0.5 * len(summary["wafers"]) + 3), 4.0)
     labels = list(summary["wafers"])
