@@ -178,6 +178,20 @@ def test_lossless_layer_matrices_match_the_complex_ones():
     assert np.all(identity[0] == 1.0) and all(np.all(part == 0.0) for part in identity[1:])
 
 
+def test_half_angle_cos_sin_match_numpy_for_large_phases():
+    # cos and sin of the real phase from tan(delta / 2) (half-angle identities) against np.cos / np.sin,
+    # phases up to ~1e8 rad (a 10 mm coherent layer at 400 nm)
+    rng = np.random.default_rng(3)
+    k0 = 2 * np.pi / rng.uniform(300.0, 1000.0, 200_000)
+    q = rng.uniform(1.0, 4.0, k0.size)
+    thickness = rng.uniform(0.0, 1e7, k0.size)
+    cos_d, a_s, b_s, _, _ = coherent.lossless_layer_matrices(q, None, thickness, k0, with_p=False)
+    phase = (0.5 * k0 * thickness) * q * 2.0  # the same rounded phase (doubling is exact)
+    np.testing.assert_allclose(cos_d, np.cos(phase), rtol=0, atol=1e-15)
+    np.testing.assert_allclose(b_s / q, np.sin(phase), rtol=0, atol=1e-15)
+    np.testing.assert_allclose(a_s * q, np.sin(phase), rtol=0, atol=1e-15)
+
+
 def test_quantities_returns_only_the_requested_keys():
     n = [1.0, 1.46, 3.9 + 0.02j]
     full = solve(n, [100.0], [True], WAVELENGTHS, [0.0, 70.0])
