@@ -149,10 +149,11 @@ def test_paths_taken():
     def counts():
         return real_block.call_count, normal.call_count, real_layer.call_count, general.call_count
 
-    with mock.patch.object(solver, "lossless_block_forward", wraps=coherent.lossless_block_forward) as real_block, \
-            mock.patch.object(solver, "combine_normal", wraps=solver.combine_normal) as normal, \
-            mock.patch.object(solver, "lossless_layer_matrices", wraps=coherent.lossless_layer_matrices) as real_layer, \
-            mock.patch.object(solver, "layer_matrices", wraps=coherent.layer_matrices) as general:
+    def spy(name):
+        return mock.patch.object(solver, name, wraps=getattr(solver, name))
+
+    with spy("lossless_block_forward") as real_block, spy("combine_normal") as normal, \
+            spy("lossless_layer_matrices") as real_layer, spy("layer_matrices") as general:
         solve(lossless, *layers, WAVELENGTHS, 0.0)
         assert counts() == (1, 1, 2, 0)  # s only, real
         solve(lossless, *layers, WAVELENGTHS, [0.0, 60.0])

@@ -71,7 +71,8 @@ def mueller_from_sums(rs2, rp2, cross, cos_2theta):
     """
     total = rs2 + rp2
     dark = total < DARK_REFLECTANCE
-    with np.errstate(divide="ignore", invalid="ignore"):
+    # 1 / total may be inf (total 0) or overflow (subnormal total); those points are dark, replaced below
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         inverse = 1.0 / total
         n_elem = (rs2 - rp2) * inverse
         twice = 2.0 * inverse

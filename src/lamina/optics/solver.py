@@ -99,8 +99,9 @@ def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
     """Check the inputs and give them broadcastable shapes (*batch, A, W).
 
     Returns (n_full, d_full, coherent, k0, angle_rad, shape): indices as
-    (*batch, 1, W) (complex, or float where given real), thicknesses as (*batch, 1, 1), k0 = 2 pi / lambda as (W,),
-    angles (radians) as (A, 1), and the full output shape.
+    (*batch, 1, W) (complex, or float where given real), thicknesses as
+    (*batch, 1, 1), k0 = 2 pi / lambda as (W,), angles (radians) as (A, 1),
+    and the full output shape.
     """
     wavelength = _as_1d(wavelength_nm, "wavelength_nm")
     angle = _as_1d(angle_deg, "angle_deg")
