@@ -56,7 +56,8 @@ def run(args) -> int:
     from ..qa import maps  # light: numpy only, so the fork server below starts at once
 
     if not args.scheduler:
-        maps.prepare_local_workers()  # the workers' imports overlap importing dask and reading the inputs
+        # the workers' imports (the plotting stack too: they draw the plots) overlap reading the inputs
+        maps.prepare_local_workers(PLOT_MODULES)
     outdir = _output_folder(args.output, create=False)
     _refuse_overwriting_inputs(outdir, [args.mapfile, args.model, args.spec])
     stack, free, spec = _read_model_and_spec(args)
@@ -72,9 +73,7 @@ def run(args) -> int:
     session = starting.result()
     bar = _progress(dataset.sizes["site"], args.quiet)  # after start-up: its rate is the fitting rate
     try:
-        # the workers draw the plots afterwards: each imports the plotting stack when its fits are done
-        outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update,
-                                then_import=PLOT_MODULES)
+        outcomes = maps.fit_map(stack, dataset, session.client, chunk_size=args.chunk_size, progress=bar.update)
         bar.close()
         summary = _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcomes, session)
     finally:
@@ -129,7 +128,8 @@ def _judge_and_write(args, outdir, stack, free, spec, dataset, geometry, outcome
 #: what writing the tables and the report imports in this process: imported in a thread while the
 #: sites are fitted (the plots are drawn on the workers, so matplotlib never loads here)
 OUTPUT_MODULES = ("scipy.io", "lamina.data.writers", "lamina.report.html", "jinja2")
-#: what drawing the plots imports on a worker (about half a second)
+#: what drawing the plots imports on a worker (some 0.3 s): preloaded by the fork server of local
+#: workers, imported on first use by the workers of an external scheduler
 PLOT_MODULES = ("matplotlib.figure", "matplotlib.backends.backend_agg", "scipy.interpolate",
                 "lamina.report.plots_map")
 

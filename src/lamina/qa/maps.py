@@ -467,12 +467,13 @@ _FORKSERVER_LOCK = __import__("threading").Lock()
 _forkserver_ready = False
 
 
-def _configure_forkserver() -> bool:
+def _configure_forkserver(extra_preload: Iterable[str] = ()) -> bool:
     """Start the fork server with lamina's preload list (once per process); False where forkserver does not exist.
 
     Started here, before dask is even imported in this process, so that the server's imports
     (some seconds) overlap everything the caller does meanwhile; distributed's own later
     request for a preload list then finds the server running and changes nothing.
+    `extra_preload`: modules the caller's own tasks need too (only the first call's count).
     """
     global _forkserver_ready
     import multiprocessing
@@ -481,39 +482,28 @@ def _configure_forkserver() -> bool:
     with _FORKSERVER_LOCK:
         if not _forkserver_ready:
             from multiprocessing import forkserver
-            multiprocessing.get_context("forkserver").set_forkserver_preload(list(WORKER_PRELOAD))
+            preload = list(dict.fromkeys(WORKER_PRELOAD + tuple(extra_preload)))
+            multiprocessing.get_context("forkserver").set_forkserver_preload(preload)
             forkserver.ensure_running()
             _forkserver_ready = True
     return True
 
 
-def prepare_local_workers() -> None:
+def prepare_local_workers(extra_preload: Iterable[str] = ()) -> None:
     """Start the warm fork server in a background thread, ahead of the cluster.
 
     Its imports (some seconds) then overlap whatever the caller does meanwhile
     (importing dask, reading the model and the map); nothing to undo if the caller stops early.
+    `extra_preload`: modules that the caller's own tasks on the workers need besides the fits.
     """
     import threading
 
     def start():
         try:
-            _configure_forkserver()
+            _configure_forkserver(extra_preload)
         except Exception:  # the cluster start reports any real problem
             pass
     threading.Thread(target=start, name="lamina-forkserver", daemon=True).start()
-
-
-def _import_when_idle(client, modules) -> list:
-    """A task on every worker, after every fit (lower priority), that imports `modules`."""
-    return [client.submit(_import_modules, tuple(modules), priority=-10, pure=False, workers=[address],
-                          allow_other_workers=False)
-            for address in _worker_addresses(client)]
-
-
-def _import_modules(modules) -> None:
-    import importlib
-    for name in modules:
-        importlib.import_module(name)
 
 
 @contextlib.contextmanager
@@ -583,12 +573,8 @@ def _workers_of(client) -> int:
 
 
 def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
-            chunk_size: int | None = None, progress: Callable[[int], None] | None = None,
-            then_import: Iterable[str] = ()) -> list[dict]:
+            chunk_size: int | None = None, progress: Callable[[int], None] | None = None) -> list[dict]:
     """Fit every site of `dataset` on the dask `client`; one outcome dict per site, in site order.
-
-    `then_import`: modules that every worker imports once it has no fit left to do (e.g. the
-    plotting stack, for plots drawn on the workers afterwards), so that no fit waits for them.
 
     Outcome keys: index, status ("fitted" or "failed"), reduced_chi2, values,
     stderr (by parameter name), warnings, global_search, reason, reference
@@ -640,7 +626,6 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
         for chunk in _chunks(todo, size):
             futures[client.submit(fit_chunk, seed, dataset.isel(site=chunk), chunk, site_fit, False,
                                   pure=False)] = chunk
-    after = _import_when_idle(client, then_import) if then_import else []
     _collect(futures, outcomes, tick, as_completed)
 
     # 3. outliers again with the global search, from the model's own start
@@ -656,9 +641,7 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
                     better["reduced_chi2"] < outcomes[i]["reduced_chi2"]:
                 outcomes[i] = better
             outcomes[i]["refit"] = True
-    # held until here so that the warm-up tasks are not cancelled early; an import still waiting
-    # behind the last fits is dropped (the modules then load when they are first used)
-    del warm, after
+    del warm  # held until here so that the warm-up tasks are not cancelled early
     for outcome in outcomes:
         outcome.setdefault("reference", False)
         outcome.setdefault("refit", False)
