@@ -11,7 +11,8 @@ and the speed-up of 2 workers over 1.
     python benchmarks/map.py --sites --stage 400       # fit_map alone on a warm cluster
 
 Goal on a 2-core machine for the 400-site map: 2 workers at least 1.6x faster than 1,
-and at least 20 sites/s with 2 workers.  Other load on the machine spoils the figures:
+and at least 20 sites/s with 2 workers.  With T(W) = F + S / W, 1.6x needs the fixed part
+F under S / 3; the script prints the split F, S it measured.  Other load on the machine spoils the figures:
 run it on a quiet machine (the script prints the load average it saw).
 """
 from __future__ import annotations
@@ -130,6 +131,22 @@ def fitting_stage(n_sites: int, workers: int, repeat: int) -> None:
           f"{n_sites / best:.0f} sites/s (load {os.getloadavg()[0]:.1f})", flush=True)
 
 
+def _split(n_sites: int, one: float, two: float) -> None:
+    """Fixed part F and fitting part S of T(W) = F + S / W, from the 1- and 2-worker times (Amdahl).
+
+    A rough split (it assumes the second worker had a free core): it says how much of a
+    command does not shrink with more workers, and so the best speed-up one can expect.
+    """
+    fitting = 2.0 * (one - two)
+    fixed = one - fitting
+    if fitting <= 0:
+        print(f"{n_sites:4d} sites: no measurable gain from a second worker")
+        return
+    print(f"{n_sites:4d} sites: about {fixed:.1f} s fixed + {fitting:.1f} s of fitting on one worker "
+          f"({1000 * fitting / n_sites:.0f} ms per site); a 1.6x speed-up of 2 workers would need a "
+          f"fixed part under {fitting / 3:.1f} s")
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sites", type=int, nargs="*", default=[49, 400])
@@ -164,6 +181,8 @@ def main(argv=None) -> int:
                 for workers, seconds in best.items():
                     if workers != 1:
                         print(f"{n_sites:4d} sites: speed-up {workers} workers over 1: {best[1] / seconds:.2f}x")
+                if 2 in best:
+                    _split(n_sites, best[1], best[2])
     print(f"load average after: {os.getloadavg()[0]:.2f}")
     return 0
 
