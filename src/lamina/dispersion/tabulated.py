@@ -147,6 +147,8 @@ class Table(Dispersion):
     law = "table"
     BACKGROUND = None
     SPECS: dict = {}
+    #: (wavelength grid, N on it) of the last `nk` call; replaced, never mutated (copies share it safely)
+    _nk_cache = None
 
     def __init__(self, wavelength_nm, n, k=None, *, file: str | None = None, where: str = "table", **meta):
         k = np.zeros(np.shape(n)) if k is None else k
@@ -168,6 +170,26 @@ class Table(Dispersion):
                 self.check_range(HC_EV_NM / energy)
         n_complex = interpolate_nk(photon_energy_ev, self._energy_ev, self.n_values[::-1], self.k_values[::-1])
         return n_complex * n_complex
+
+    def nk(self, wavelength_nm, values: Mapping[str, object] | None = None) -> np.ndarray:
+        """N = n + ik interpolated directly (no square and square root back), cached per grid.
+
+        A fit asks for the same wavelengths at every evaluation and the law has
+        no parameters, so the interpolation is done once per grid (compared by
+        contents, ~1 us).  Equal to `Dispersion.nk` to round-off (sqrt(N^2) = N
+        for n > 0, k >= 0).  A copy is returned: callers may modify it.
+        """
+        if values:  # the base class reports the unknown parameter names
+            return super().nk(wavelength_nm, values)
+        wavelength = np.asarray(wavelength_nm, dtype=float)
+        cached = self._nk_cache
+        if cached is not None and cached[0].shape == wavelength.shape and np.array_equal(cached[0], wavelength):
+            return cached[1].copy()
+        self.check_range(wavelength)
+        n_complex = np.asarray(interpolate_nk(HC_EV_NM / wavelength, self._energy_ev, self.n_values[::-1],
+                                              self.k_values[::-1]))
+        self._nk_cache = (wavelength.copy(), n_complex)
+        return n_complex.copy()
 
     @classmethod
     def from_csv(cls, path, where: str | None = None, file: str | None = None, **meta) -> "Table":

@@ -90,7 +90,8 @@ def layer_matrices(q, eps, thickness_nm, k0_per_nm, kx2_bound=np.inf, with_p=Tru
     m21_s *= -0.5
     if not with_p:
         return cos_d, m12_s, m21_s, None, None
-    return cos_d, m12_s, m21_s, eps * m12_s, m21_s / eps
+    # eps has no angle axis: one reciprocal on it and a product on the full grid beat a full-grid division
+    return cos_d, m12_s, m21_s, eps * m12_s, m21_s * (1.0 / eps)
 
 
 def _may_exceed_cap(k0d, eps, kx2_bound) -> bool:
@@ -188,14 +189,14 @@ def lossless_product(layers):
     return product.elements
 
 
-def lossless_block_forward(eta_top, eta_bottom, product):
+def lossless_block_forward(eta_top, eta_bottom, product, with_t=True):
     """`block_forward` from a lossless product (m11, x, y, m22) (see `LosslessProduct`)."""
     m11, x, y, m22 = product
     b = np.multiply(x, -1j * eta_bottom)  # (B, C) = M (1, eta_bottom) = (m11 - i x eta, m22 eta - i y)
     c = np.multiply(m22, eta_bottom)
     shape = b.shape
     if c.shape != shape or np.broadcast_shapes(shape, np.shape(eta_top), m11.shape, y.shape) != shape:
-        return _coefficients(eta_top, eta_bottom, b + m11, c - 1j * y)
+        return _coefficients(eta_top, eta_bottom, b + m11, c - 1j * y, with_t)
     # `_coefficients` in place on the two new arrays: allocating a large array
     # costs about as much as the arithmetic on it (same operations, same numbers)
     b.real += m11
@@ -204,7 +205,7 @@ def lossless_block_forward(eta_top, eta_bottom, product):
     denominator = b + c
     r = np.subtract(b, c, out=b)
     np.divide(r, denominator, out=r)
-    t = np.divide(2.0 * eta_top, denominator, out=denominator)
+    t = np.divide(2.0 * eta_top, denominator, out=denominator) if with_t else None
     return BlockCoefficients(r, t, eta_top, eta_bottom)
 
 
@@ -234,20 +235,21 @@ class BlockCoefficients:
         self.r_back, self.t_back = r_back, t_back
 
 
-def block_forward(eta_top, eta_bottom, layers):
+def block_forward(eta_top, eta_bottom, layers, with_t=True):
     """r, t for light from above through coherent `layers` (top to bottom).
 
     `layers` is a list of (cos_d, m12, m21) with m12 = -i sin(delta)/eta and
     m21 = -i eta sin(delta).  Only the vector (B, C) is propagated upward from
-    the exit medium: half the work of the full matrix product.
+    the exit medium: half the work of the full matrix product.  Without
+    `with_t`, t is None (not computed).
     """
     if not layers:
-        return _coefficients(eta_top, eta_bottom, 1.0, eta_bottom)
+        return _coefficients(eta_top, eta_bottom, 1.0, eta_bottom, with_t)
     cos_d, m12, m21 = layers[-1]
     b, c = cos_d + m12 * eta_bottom, m21 + cos_d * eta_bottom
     for cos_d, m12, m21 in reversed(layers[:-1]):
         b, c = cos_d * b + m12 * c, m21 * b + cos_d * c
-    return _coefficients(eta_top, eta_bottom, b, c)
+    return _coefficients(eta_top, eta_bottom, b, c, with_t)
 
 
 def block_both_ways(eta_top, eta_bottom, layers):
@@ -272,8 +274,14 @@ def block_both_ways(eta_top, eta_bottom, layers):
     return front
 
 
-def _coefficients(eta_in, eta_out, b, c):
-    denominator = eta_in * b + c
-    r = (eta_in * b - c) / denominator
-    t = 2.0 * eta_in / denominator
+def _coefficients(eta_in, eta_out, b, c, with_t=True):
+    """r and t (None without `with_t`: a caller that needs no transmission) from (B, C)."""
+    eta_b = eta_in * b  # once, not twice (numerator and denominator)
+    denominator = eta_b + c
+    if eta_b.shape == denominator.shape and eta_b.dtype == denominator.dtype:  # in place on our own temporary
+        r = np.subtract(eta_b, c, out=eta_b)
+        r /= denominator
+    else:
+        r = (eta_b - c) / denominator
+    t = 2.0 * eta_in / denominator if with_t else None
     return BlockCoefficients(r, t, eta_in, eta_out)

@@ -90,8 +90,37 @@ def mueller_from_sums(rs2, rp2, cross, cos_2theta):
 def psi_delta_from_mueller(n_elem, c_elem, s_elem):
     """Psi in [0, 90] and Delta in [0, 360), degrees, from N, C, S (any common scale)."""
     psi = 0.5 * np.degrees(np.arctan2(np.hypot(c_elem, s_elem), n_elem))
-    delta = wrap_delta_deg(np.degrees(np.arctan2(s_elem, c_elem)))
-    return psi, delta
+    return psi, _wrap_half_turn(np.degrees(np.arctan2(s_elem, c_elem)))
+
+
+def psi_delta_from_sums(rs2, rp2, cross):
+    """Psi and Delta (degrees) straight from R_s, R_p and X, or None if any point is dark.
+
+    N, C and S share the factor 1 / (R_s + R_p), which the arctangents ignore,
+    so a caller that wants only Psi and Delta skips that scaling and P:
+    Psi = atan2(2 |X|, R_s - R_p) / 2 and Delta = arg X, equal to
+    `psi_delta_from_mueller(*mueller_from_sums(...)[:3])` to round-off.  Dark
+    points (see `mueller_from_sums`) need the limit there: None sends the
+    caller to that path (NaN sums too, which give NaN there as well).
+    """
+    if not (rs2 + rp2).min() >= DARK_REFLECTANCE:
+        return None
+    psi = np.arctan2(2.0 * np.abs(cross), rs2 - rp2)
+    psi *= 90.0 / np.pi  # half the angle, in degrees
+    return psi, _wrap_half_turn(np.angle(cross, deg=True))
+
+
+def _wrap_half_turn(delta_deg):
+    """`wrap_delta_deg` for angles in [-180, 180] (an arctangent's), in place and cheaper.
+
+    np.mod is slow; for this range it is x + 360 for x < 0; adding 0.0 turns
+    -0.0 into +0.0 as np.mod does, and x + 360 can round to 360 for tiny
+    negative x, which wraps to 0.
+    """
+    delta_deg = np.asarray(delta_deg)
+    delta_deg += np.where(delta_deg < 0.0, 360.0, 0.0)
+    delta_deg[delta_deg >= 360.0] = 0.0
+    return delta_deg
 
 
 def pseudo_dielectric(n_elem, c_elem, s_elem, polarization, sin_theta, eps_ambient):

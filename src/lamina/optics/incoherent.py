@@ -51,20 +51,27 @@ def _abs2(z):
     return z.real * z.real + z.imag * z.imag
 
 
-def single_block(block_s, block_p):
-    """Channels of a purely coherent stack (one block, no incoherent layer)."""
+def single_block(block_s, block_p, transmission=True):
+    """Channels of a purely coherent stack (one block, no incoherent layer).
+
+    Without `transmission` the ts2/tp2 sums are None (the blocks' t may be too).
+    """
+    if not transmission:
+        return Channels(_abs2(block_s.r), _abs2(block_p.r), block_s.r * np.conj(block_p.r), None, None)
     return Channels(_abs2(block_s.r), _abs2(block_p.r), block_s.r * np.conj(block_p.r),
                     _abs2(block_s.t), _abs2(block_p.t))
 
 
-def combine(blocks_s, blocks_p, slab_passes):
+def combine(blocks_s, blocks_p, slab_passes, transmission=True):
     """Incoherent sum over blocks 0..m-1 separated by thick media.
 
     blocks_s, blocks_p: BlockCoefficients of each block, top to bottom (all but
     the last with r_back/t_back); slab_passes[k]: single-pass intensity
     transmission P of the thick medium between block k and block k+1.
+    Without `transmission` the transmission sums are not formed (None), and
+    the last block's t is not read.
     """
-    below = single_block(blocks_s[-1], blocks_p[-1])
+    below = single_block(blocks_s[-1], blocks_p[-1], transmission)
     for k in range(len(blocks_s) - 2, -1, -1):
         below = _add_block_on_top(blocks_s[k], blocks_p[k], slab_passes[k], below)
     return below
@@ -82,19 +89,30 @@ def _add_block_on_top(bs, bp, single_pass, below):
     rs2 = _abs2(bs.r) + _abs2(trip_s) * p2 * below.rs2 / denom_s
     rp2 = _abs2(bp.r) + _abs2(trip_p) * p2 * below.rp2 / denom_p
     cross = bs.r * np.conj(bp.r) + trip_s * np.conj(trip_p) * p2 * below.cross / denom_x
+    if below.ts2 is None:  # transmission not asked for
+        return Channels(rs2, rp2, cross, None, None)
     ts2 = _abs2(bs.t) * single_pass * below.ts2 / denom_s
     tp2 = _abs2(bp.t) * single_pass * below.tp2 / denom_p
     return Channels(rs2, rp2, cross, ts2, tp2)
 
 
-def combine_normal(blocks_s, slab_passes):
+def combine_normal(blocks_s, slab_passes, transmission=True):
     """`combine` at normal incidence, from the s blocks alone.
 
     There s and p are the same wave (r_p = -r_s for every path, and
     |t_p t_p'| = |t_s t_s'| since the H/E field factors cancel over a round
     trip), so R_p = R_s, X = -R_s and the transmission sums are equal; the
     recursion for s is the one `combine` runs, giving identical numbers.
+    Without `transmission` the transmission sums are None.
     """
+    if not transmission:
+        rs2 = _abs2(blocks_s[-1].r)
+        for k in range(len(blocks_s) - 2, -1, -1):
+            bs, single_pass = blocks_s[k], slab_passes[k]
+            p2 = single_pass * single_pass
+            denom = 1.0 - _abs2(bs.r_back) * p2 * rs2
+            rs2 = _abs2(bs.r) + _abs2(bs.t * bs.t_back) * p2 * rs2 / denom
+        return Channels(rs2, rs2, np.negative(rs2, dtype=complex), None, None)
     rs2, ts2 = _abs2(blocks_s[-1].r), _abs2(blocks_s[-1].t)
     for k in range(len(blocks_s) - 2, -1, -1):
         bs, single_pass = blocks_s[k], slab_passes[k]

@@ -30,7 +30,7 @@ import numpy as np
 from ..errors import LaminaInputError
 from .coherent import (LosslessProduct, block_both_ways, block_forward, layer_matrices, lossless_block_both_ways,
                        lossless_block_forward, lossless_layer_matrices, normal_component)
-from .ellipsometry import mueller_from_sums, pseudo_dielectric, psi_delta_from_mueller
+from .ellipsometry import mueller_from_sums, pseudo_dielectric, psi_delta_from_mueller, psi_delta_from_sums
 from .incoherent import combine, combine_normal, single_pass_transmission
 
 #: the keys of the dict `solve` returns
@@ -71,12 +71,15 @@ def solve(n_media, thickness_nm, coherent, wavelength_nm, angle_deg, *, pseudo_d
     wanted = _wanted(quantities)
     prepared = prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg)
     n_full, d_full, coherent, k0, angle_rad, shape = prepared
-    raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad), fast_paths=fast_paths)
+    transmission = bool(_TRANSMISSION & set(wanted))
+    raw = raw_response(n_full, d_full, coherent, k0, np.sin(angle_rad), np.cos(angle_rad), fast_paths=fast_paths,
+                       transmission=transmission)
     out = finish(raw, np.sin(angle_rad), n_full[0], shape, wanted)
     normal = angle_rad[:, 0] < np.radians(NEAR_NORMAL_DEG)
     if pseudo_dielectric and "eps_pseudo" in wanted and np.any(normal):
         near = np.full((int(normal.sum()), 1), np.radians(NEAR_NORMAL_DEG))
-        raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near), fast_paths=fast_paths)
+        raw_near = raw_response(n_full, d_full, coherent, k0, np.sin(near), np.cos(near), fast_paths=fast_paths,
+                                transmission=False)
         near_shape = shape[:-2] + (near.shape[0], shape[-1])
         out["eps_pseudo"][..., normal, :] = finish(raw_near, np.sin(near), n_full[0], near_shape,
                                                    ("eps_pseudo",))["eps_pseudo"]
@@ -105,10 +108,11 @@ def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
     """
     wavelength = _as_1d(wavelength_nm, "wavelength_nm")
     angle = _as_1d(angle_deg, "angle_deg")
-    if not np.all(np.isfinite(wavelength) & (wavelength > 0)):
+    # min/max instead of elementwise masks (cheaper); a NaN makes min() NaN and fails the check
+    if not (wavelength.min(initial=np.inf) > 0 and wavelength.max(initial=1.0) < np.inf):
         raise LaminaInputError("wavelength_nm holds a value that is not a positive number", _WHERE,
                                "wavelengths > 0 nm")
-    if not np.all(np.isfinite(angle) & (angle >= 0) & (angle < 90)):
+    if not (angle.min(initial=0.0) >= 0 and angle.max(initial=0.0) < 90):
         raise LaminaInputError("angle_deg holds a value outside [0, 90)", _WHERE, "0 <= angle < 90 degrees")
     n_media = list(n_media)
     inner = len(n_media) - 2
@@ -135,7 +139,7 @@ def prepare_inputs(n_media, thickness_nm, coherent, wavelength_nm, angle_deg):
     depths = []
     for pos, d in enumerate(thickness_nm):
         d = np.asarray(d, dtype=float)
-        if not np.all(np.isfinite(d) & (d >= 0)):
+        if not (d.min(initial=0.0) >= 0 and d.max(initial=0.0) < np.inf):
             raise LaminaInputError(f"thickness of inner medium {pos + 1} is negative or not a number",
                                    _WHERE, "thickness_nm >= 0")
         batch_shapes.append(d.shape)
@@ -161,7 +165,8 @@ def _as_1d(values, name):
     return arr
 
 
-def raw_response(n_full, d_full, coherent, k0, sin0, cos0, *, fast_paths: bool = True) -> RawResponse:
+def raw_response(n_full, d_full, coherent, k0, sin0, cos0, *, fast_paths: bool = True,
+                 transmission: bool = True) -> RawResponse:
     """Amplitudes of the front part and the (R_s, R_p, X, T_s, T_p) sums.
 
     All arguments broadcast to the output shape; `coherent` has one flag per
@@ -170,6 +175,8 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0, *, fast_paths: bool =
     amplitude are parallel to the surface, the convention of the ``tmm``
     package), so every medium below has a well-defined forward wave.
     With `fast_paths` (see the module docstring) the result is the same to round-off.
+    Without `transmission` the transmission side (ts, tp, Ts, Tp; the last
+    block's t) is not computed and is None: Psi/Delta and R need none of it.
     """
     n_ambient = n_full[0]
     kx = n_ambient.real * sin0
@@ -188,7 +195,8 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0, *, fast_paths: bool =
         is_last = bottom == boundaries[-1]
         eta_s, eta_p = (q[top], q[bottom]), (zeta[top], zeta[bottom])
         block_s, block_p = _coherent_block(n_full, d_full, range(top + 1, bottom), eta_s, eta_p, is_last,
-                                           k0, kx2, kx2_bound, normal_only, fast_paths)
+                                           k0, kx2, kx2_bound, normal_only, fast_paths,
+                                           with_t=transmission or not is_last)
         blocks_s.append(block_s)
         blocks_p.append(block_p)
         if not is_last:
@@ -197,25 +205,30 @@ def raw_response(n_full, d_full, coherent, k0, sin0, cos0, *, fast_paths: bool =
     rs, ts = blocks_s[0].r, blocks_s[0].t
     exit_s = q[boundaries[-1]].real / q[0].real
     if normal_only:
-        sums = combine_normal(blocks_s, passes)
-        ts_power = sums.ts2 * exit_s
+        sums = combine_normal(blocks_s, passes, transmission)
+        ts_power = sums.ts2 * exit_s if transmission else None
         # r_p = -r_s, t_p = t_s exactly (see _impose_normal_incidence)
         return RawResponse(rs=rs, rp=-rs, ts=ts, tp=ts, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
                            Ts=ts_power, Tp=ts_power)
-    sums = combine(blocks_s, blocks_p, passes)
-    front_bottom = boundaries[1]
+    sums = combine(blocks_s, blocks_p, passes, transmission)
     rp = blocks_p[0].r
-    tp = blocks_p[0].t * (n_ambient / n_full[front_bottom])  # H-field ratio -> E-field ratio
-    exit_p = zeta[boundaries[-1]].real / zeta[0].real
-    raw = RawResponse(rs=rs, rp=rp, ts=ts, tp=tp, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
-                      Ts=sums.ts2 * exit_s, Tp=sums.tp2 * exit_p)
+    if transmission:
+        front_bottom = boundaries[1]
+        tp = blocks_p[0].t * (n_ambient / n_full[front_bottom])  # H-field ratio -> E-field ratio
+        exit_p = zeta[boundaries[-1]].real / zeta[0].real
+        raw = RawResponse(rs=rs, rp=rp, ts=ts, tp=tp, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
+                          Ts=sums.ts2 * exit_s, Tp=sums.tp2 * exit_p)
+    else:
+        raw = RawResponse(rs=rs, rp=rp, ts=None, tp=None, rs2=sums.rs2, rp2=sums.rp2, cross=sums.cross,
+                          Ts=None, Tp=None)
     normal = sin0 == 0
     if np.any(normal):
         _impose_normal_incidence(raw, normal)
     return raw
 
 
-def _coherent_block(n_full, d_full, inner, eta_s, eta_p, is_last, k0, kx2, kx2_bound, normal_only, fast_paths):
+def _coherent_block(n_full, d_full, inner, eta_s, eta_p, is_last, k0, kx2, kx2_bound, normal_only, fast_paths,
+                    with_t=True):
     """BlockCoefficients (s, p) of the coherent layers `inner` between two thick media.
 
     `eta_s`, `eta_p`: (top, bottom) admittances.  The p block is None when
@@ -232,9 +245,11 @@ def _coherent_block(n_full, d_full, inner, eta_s, eta_p, is_last, k0, kx2, kx2_b
             product_s.multiply(cos_d, a_s, b_s)
             if not normal_only:
                 product_p.multiply(cos_d, a_p, b_p)
-        block = lossless_block_forward if is_last else lossless_block_both_ways
-        block_s = block(*eta_s, product_s.elements)
-        return block_s, None if normal_only else block(*eta_p, product_p.elements)
+        if is_last:
+            block_s = lossless_block_forward(*eta_s, product_s.elements, with_t)
+            return block_s, None if normal_only else lossless_block_forward(*eta_p, product_p.elements, with_t)
+        block_s = lossless_block_both_ways(*eta_s, product_s.elements)
+        return block_s, None if normal_only else lossless_block_both_ways(*eta_p, product_p.elements)
     layers_s, layers_p = [], []
     for j, real in zip(inner, real_q):
         if real is not None:  # m12 = -i a, m21 = -i b (lossless_layer_matrices)
@@ -248,8 +263,10 @@ def _coherent_block(n_full, d_full, inner, eta_s, eta_p, is_last, k0, kx2, kx2_b
                 normal_component(eps_j, kx2), eps_j, d_full[j - 1], k0, kx2_bound, with_p=not normal_only)
         layers_s.append((cos_d, m12_s, m21_s))
         layers_p.append((cos_d, m12_p, m21_p))
-    block = block_forward if is_last else block_both_ways
-    return block(*eta_s, layers_s), None if normal_only else block(*eta_p, layers_p)
+    if is_last:
+        return (block_forward(*eta_s, layers_s, with_t),
+                None if normal_only else block_forward(*eta_p, layers_p, with_t))
+    return block_both_ways(*eta_s, layers_s), None if normal_only else block_both_ways(*eta_p, layers_p)
 
 
 def _real_normal_component(n, kx2, normal_only):
@@ -280,11 +297,15 @@ def _impose_normal_incidence(raw: RawResponse, normal):
     cannot produce a spurious Delta; rho = -1 is also the limit theta -> 0.
     """
     raw.rp = np.where(normal, -raw.rs, raw.rp)
-    raw.tp = np.where(normal, raw.ts, raw.tp)
     raw.rp2 = np.where(normal, raw.rs2, raw.rp2)
     raw.cross = np.where(normal, -raw.rs2, raw.cross)
-    raw.Tp = np.where(normal, raw.Ts, raw.Tp)
+    if raw.Ts is not None:  # None: transmission not computed (raw_response)
+        raw.tp = np.where(normal, raw.ts, raw.tp)
+        raw.Tp = np.where(normal, raw.Ts, raw.Tp)
 
+
+#: outputs that need the transmission side of the computation
+_TRANSMISSION = frozenset(("ts", "tp", "Ts", "Tp", "T", "A"))
 
 #: outputs built from the Mueller elements
 _ELLIPSOMETRIC = frozenset(("psi", "delta", "N", "C", "S", "P", "eps_pseudo"))
@@ -301,7 +322,12 @@ def finish(raw: RawResponse, sin_theta, n_ambient, shape, quantities=KEYS) -> di
         values["T"] = 0.5 * (raw.Ts + raw.Tp)
     if "A" in wanted:
         values["A"] = 1.0 - values["R"] - values["T"]
-    if wanted & _ELLIPSOMETRIC:
+    ellipsometric = wanted & _ELLIPSOMETRIC
+    angles_only = (ellipsometric and ellipsometric <= {"psi", "delta"}
+                   and psi_delta_from_sums(raw.rs2, raw.rp2, raw.cross))
+    if angles_only:  # a fitter's usual request: no Mueller normalisation, no P
+        values["psi"], values["delta"] = angles_only
+    elif ellipsometric:
         cos_2theta = 1.0 - 2.0 * sin_theta * sin_theta
         n_elem, c_elem, s_elem, polarization = mueller_from_sums(raw.rs2, raw.rp2, raw.cross, cos_2theta)
         values.update(N=n_elem, C=c_elem, S=s_elem, P=polarization)
