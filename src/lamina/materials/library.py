@@ -46,14 +46,20 @@ def _unity(name: str, source: str) -> Callable[[], Dispersion]:
     return build
 
 
+def _database_source(publication: str, what: str, shelf: str, book: str, page: str, note: str) -> str:
+    """Source line of a library entry built from a page of the shipped database."""
+    from .database import database_version, page_label
+    return (f"{publication}; {what} from the refractiveindex.info database page "
+            f"{page_label(shelf, book, page)} ({database_version()})" + (f". {note}" if note else ""))
+
+
 def _sellmeier_from_page(name: str, shelf: str, book: str, page: str, publication: str,
                          note: str = "") -> Callable[[], Dispersion]:
     def build():
         from ..dispersion.sellmeier import Sellmeier
-        from .database import database_version, page_label, sellmeier_page
+        from .database import sellmeier_page
         data = sellmeier_page(shelf, book, page)
-        source = (f"{publication}; Sellmeier coefficients from the refractiveindex.info database page "
-                  f"{page_label(shelf, book, page)} ({database_version()})" + (f". {note}" if note else ""))
+        source = _database_source(publication, "Sellmeier coefficients", shelf, book, page, note)
         return Sellmeier([{"B": b, "C_um2": c} for b, c in data.terms], name=name, source=source,
                          valid_range_nm=data.range_nm)
     return build
@@ -63,10 +69,9 @@ def _table_from_page(name: str, shelf: str, book: str, page: str, publication: s
                      note: str = "") -> Callable[[], Dispersion]:
     def build():
         from ..dispersion.tabulated import Table
-        from .database import database_version, page_label, tabulated_page
+        from .database import tabulated_page
         data = tabulated_page(shelf, book, page)
-        source = (f"{publication}; tabulated n, k from the refractiveindex.info database page "
-                  f"{page_label(shelf, book, page)} ({database_version()})" + (f". {note}" if note else ""))
+        source = _database_source(publication, "tabulated n, k", shelf, book, page, note)
         return Table(data.wavelength_nm, data.n, data.k, name=name, source=source,
                      where=f"material '{name}'")
     return build
