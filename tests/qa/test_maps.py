@@ -181,6 +181,36 @@ def test_a_failing_fit_is_an_outcome_not_an_exception():
     assert outcome["status"] == "failed" and "solver blew up" in outcome["reason"] and stack is None
 
 
+def test_chunks_start_from_the_reference_fit_or_from_the_model_when_it_failed():
+    def record(stack, data, global_search=False):
+        raise RuntimeError(f"started from {stack}")
+    seeded = maps.fit_chunk_seeded(({"status": "fitted"}, "reference stack"), "model", [None], [3], record)
+    unseeded = maps.fit_chunk_seeded(({"status": "failed"}, None), "model", [None], [3], record)
+    assert "started from reference stack" in seeded[0]["reason"]
+    assert "started from model" in unseeded[0]["reason"] and unseeded[0]["index"] == 3
+
+
+def test_chunks_waiting_on_a_lost_reference_task_are_sent_again_unseeded():
+    class Future:
+        def __init__(self, args):
+            self.args, self.cancelled = args, False
+
+        def cancel(self):
+            self.cancelled = True
+
+    class Client:
+        def submit(self, function, *args, pure=True):
+            return Future((function,) + args)
+
+    waiting = Future(("seeded",))
+    other = Future(("other wafer",))
+    futures = {waiting: [1, 2], other: [7]}
+    maps._resubmit_unseeded(Client(), futures, [([1, 2], ["site 1", "site 2"])], "model", "site_fit")
+    assert waiting.cancelled and waiting not in futures and futures[other] == [7]
+    (again, chunk), = [(f, c) for f, c in futures.items() if f is not other]
+    assert chunk == [1, 2] and again.args == (maps.fit_chunk, "model", ["site 1", "site 2"], [1, 2], "site_fit")
+
+
 def test_outlier_rule_needs_both_five_times_the_median_and_three():
     # common practice for robust re-fitting; thresholds are this project's choice
     outcomes = [{"index": i, "status": "fitted", "reduced_chi2": chi2}

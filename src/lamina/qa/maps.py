@@ -363,18 +363,27 @@ def fit_site(stack, data, index: int, site_fit: SiteFit, global_search: bool) ->
         return _failed(index, f"fit failed: {text}"), None
 
 
-def fit_chunk(stack, chunk: xr.Dataset, indices: list[int], site_fit: SiteFit,
+def fit_chunk(stack, sites: list, indices: list[int], site_fit: SiteFit,
               global_search: bool = False) -> list[dict]:
-    """Worker task: fit the sites of one chunk from the same starting stack."""
+    """Worker task: fit the sites of one chunk (their measurements, as `site_data` gives them) from one start."""
     with _single_thread_blas():
-        return [fit_site(stack, site_data(chunk, j), index, site_fit, global_search)[0]
-                for j, index in enumerate(indices)]
+        return [fit_site(stack, data, index, site_fit, global_search)[0] for data, index in zip(sites, indices)]
 
 
-def fit_reference(stack, chunk: xr.Dataset, index: int, site_fit: SiteFit):
-    """Worker task: the reference site with the global search; (outcome, seed stack)."""
+def fit_chunk_seeded(reference: tuple, model, sites: list, indices: list[int], site_fit: SiteFit) -> list[dict]:
+    """Worker task: a chunk started from its wafer's reference fit (the model's own start if that failed).
+
+    `reference` is the result of the `fit_reference` task; dask hands it over as soon as that task
+    ends, so the chunks need no round trip through the client.
+    """
+    seed = reference[1] if reference is not None and reference[1] is not None else model
+    return fit_chunk(seed, sites, indices, site_fit)
+
+
+def fit_reference(stack, data: xr.Dataset, index: int, site_fit: SiteFit):
+    """Worker task: the reference site with the global search; (outcome, seed stack or None)."""
     with _single_thread_blas():
-        outcome, fitted = fit_site(stack, site_data(chunk, 0), index, site_fit, True)
+        outcome, fitted = fit_site(stack, data, index, site_fit, True)
     return outcome, (fitted if outcome["status"] == "fitted" and fitted is not None else None)
 
 
@@ -456,11 +465,11 @@ class MapCluster:
 
 
 #: modules every worker needs; imported once in the fork server instead of once per worker
-#: ("distributed" first: its own preload, which it would otherwise set on first use)
-#: (xarray imports dask.array the first time it indexes anything when dask is installed: a quarter
-#: of a second that would otherwise delay every worker's first site)
-WORKER_PRELOAD = ("distributed", "numpy", "scipy.optimize", "lmfit", "xarray", "dask.array", "lamina.fit.engine",
-                  "lamina.optics.solver", "lamina.qa.maps")
+#: ("distributed" first: its own preload, which it would otherwise set on first use).  Only what
+#: a site fit needs: this import is the longest step before the first site can be fitted.
+#: (dask.array is left out: workers get each site as its own small Dataset and never index
+#: xarray objects, which is what makes xarray import it.)
+WORKER_PRELOAD = ("distributed", "lmfit", "xarray", "lamina.fit.engine", "lamina.optics.solver", "lamina.qa.maps")
 
 
 _FORKSERVER_LOCK = __import__("threading").Lock()
@@ -604,34 +613,37 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
         usable = (wafers == wafer) & (problems == "")
         if usable.any():
             references[wafer] = reference_site(dataset["x_mm"].values, dataset["y_mm"].values, usable)
-    reference_futures = {wafer: client.submit(fit_reference, model, dataset.isel(site=[i]), i, site_fit,
-                                              pure=False)
+    reference_futures = {wafer: client.submit(fit_reference, model, site_data(dataset, i), i, site_fit, pure=False)
                          for wafer, i in references.items()}
-    seeds = {}
+
+    # 2. the other sites in chunks, each seeded from its wafer's reference: the chunk tasks depend on
+    #    the reference task, so dask starts them the moment it ends (no round trip through here).
+    #    The sites are split here, one small Dataset each: workers never index xarray objects.
+    size = chunk_size or choose_chunk_size(n_sites, _workers_of(client))
+    futures, chunks_of = {}, {}
+    for wafer in dict.fromkeys(wafers):
+        todo = [i for i in range(n_sites) if wafers[i] == wafer and outcomes[i] is None
+                and references.get(wafer) != i]
+        reference = reference_futures.get(wafer)
+        chunks_of[wafer] = [(chunk, [site_data(dataset, i) for i in chunk]) for chunk in _chunks(todo, size)]
+        for chunk, sites in chunks_of[wafer]:
+            futures[client.submit(fit_chunk_seeded, reference, model, sites, chunk, site_fit, pure=False)] = chunk
     for wafer, future in reference_futures.items():
         try:
-            outcome, seed = future.result()
+            outcome, _ = future.result()
         except Exception as exc:  # a lost worker, not a bad site: record it, fit the rest from the model
-            outcome, seed = _failed(references[wafer], f"task failed on the cluster: {exc}"), None
+            outcome = _failed(references[wafer], f"task failed on the cluster: {exc}")
+            _resubmit_unseeded(client, futures, chunks_of[wafer], model, site_fit)
         outcome["reference"] = True
         outcomes[outcome["index"]] = outcome
         tick(1)
-        seeds[wafer] = client.scatter(seed, broadcast=True, hash=False) if seed is not None else model
-
-    # 2. the other sites in chunks, seeded from their wafer's reference
-    size = chunk_size or choose_chunk_size(n_sites, _workers_of(client))
-    futures = {}
-    for wafer, seed in seeds.items():
-        todo = [i for i in range(n_sites) if wafers[i] == wafer and outcomes[i] is None]
-        for chunk in _chunks(todo, size):
-            futures[client.submit(fit_chunk, seed, dataset.isel(site=chunk), chunk, site_fit, False,
-                                  pure=False)] = chunk
     _collect(futures, outcomes, tick, as_completed)
 
     # 3. outliers again with the global search, from the model's own start
     again = outlier_sites(outcomes)
     if again:
-        futures = {client.submit(fit_chunk, model, dataset.isel(site=chunk), chunk, site_fit, True, pure=False): chunk
+        futures = {client.submit(fit_chunk, model, [site_data(dataset, i) for i in chunk], chunk, site_fit, True,
+                                 pure=False): chunk
                    for chunk in _chunks(again, size)}
         retried: list[dict | None] = [None] * n_sites
         _collect(futures, retried, lambda n: None, as_completed)
@@ -646,6 +658,16 @@ def fit_map(stack, dataset: xr.Dataset, client, site_fit: SiteFit | None = None,
         outcome.setdefault("reference", False)
         outcome.setdefault("refit", False)
     return outcomes
+
+
+def _resubmit_unseeded(client, futures: dict, chunks: list, model, site_fit) -> None:
+    """Chunks that waited on a reference task the cluster lost: send them again, from the model's start."""
+    waiting = {tuple(chunk) for chunk, _ in chunks}
+    for future in [f for f, chunk in futures.items() if tuple(chunk) in waiting]:
+        del futures[future]
+        future.cancel()
+    for chunk, sites in chunks:
+        futures[client.submit(fit_chunk, model, sites, chunk, site_fit, pure=False)] = chunk
 
 
 def _collect(futures: dict, outcomes, tick, as_completed) -> None:
