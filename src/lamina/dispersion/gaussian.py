@@ -31,11 +31,17 @@ import math
 from typing import Mapping, Sequence
 
 import numpy as np
-from scipy.special import dawsn
 
 from ..errors import LaminaInputError
 from ..parameters import ParamSpec, as_param
 from .base import Dispersion, check_keys, list_to_toml, list_values, read_param_list, require
+
+
+def dawsn(x):
+    """Dawson's integral (scipy.special.dawsn; imported on first use, see tauc_lorentz.xlogy)."""
+    from scipy.special import dawsn as _dawsn
+    return _dawsn(x)
+
 
 #: sigma = FWHM / (2 sqrt(ln 2)) turns the full width at half maximum into the 1/e half width
 FWHM_TO_SIGMA = 1.0 / (2.0 * math.sqrt(math.log(2.0)))

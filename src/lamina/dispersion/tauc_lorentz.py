@@ -26,12 +26,18 @@ import math
 from typing import Mapping, Sequence
 
 import numpy as np
-from scipy.special import xlogy
 
 from ..errors import LaminaInputError
 from ..parameters import ParamSpec, as_param
 from .base import (Dispersion, check_keys, list_key, list_length, list_to_toml, list_values, read_param_list,
                    require)
+
+def xlogy(x, y):
+    """x log(y), 0 where x = 0 (scipy.special.xlogy; imported on first use, since scipy.special
+    costs a quarter of a second at start-up and most models never evaluate this law)."""
+    from scipy.special import xlogy as _xlogy
+    return _xlogy(x, y)
+
 
 #: smallest broadening accepted (eV); C = 0 would make eps2 a delta function
 MIN_BROADENING_EV = 1e-6
