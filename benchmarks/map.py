@@ -6,20 +6,25 @@ data are simulated by lamina here and are synthetic.  Prints seconds, sites per 
 and the speed-up of 2 workers over 1.
 
     python benchmarks/map.py                  # both maps, 1 and 2 workers
-    python benchmarks/map.py --sites 400 --workers 2 --repeat 2
+    python benchmarks/map.py --sites 400 --repeat 5
+    python benchmarks/map.py --sites 400 --warm-cluster   # through --scheduler: workers already running
     python benchmarks/map.py --sites --plumbing 2000   # orchestration alone, no fitting
     python benchmarks/map.py --sites --stage 400       # fit_map alone on a warm cluster
 
-Goal on a 2-core machine for the 400-site map: 2 workers at least 1.6x faster than 1,
-and at least 20 sites/s with 2 workers.  With T(W) = F + S / W, 1.6x needs the fixed part
-F under S / 3; the script prints the split F, S it measured.  Other load on the machine spoils the figures:
-run it on a quiet machine (the script prints the load average it saw).
+The runs alternate (1 worker, 2 workers, 1 worker, ...) so that both see the same load on
+a shared machine; the speed-up is given from the fastest runs and as the median of the
+pairs.  Goal on a 2-core machine for the 400-site map: 2 workers at least 1.6x faster
+than 1, and at least 20 sites/s with 2 workers.  With T(W) = F + S / W, 1.6x needs the
+fixed part F under S / 3; the script prints the split F, S it measured.  Other load on
+the machine spoils the figures: run it on a quiet machine (it prints the load average).
 """
 from __future__ import annotations
 
 import argparse
+import contextlib
 import math
 import os
+import statistics
 import subprocess
 import sys
 import tempfile
@@ -65,11 +70,15 @@ def write_map(path: Path, n_sites: int, seed: int = 1) -> Path:
     return path
 
 
-def run(mapfile: Path, workers: int, outdir: Path) -> tuple[float, float]:
-    """(wall seconds, CPU seconds of the command and its worker processes)."""
+def run(mapfile: Path, workers: int, outdir: Path, scheduler: str | None = None) -> tuple[float, float]:
+    """(wall seconds, CPU seconds of the command and the processes it waited for).
+
+    With `scheduler`, the command sends its work to that running cluster (of `workers` workers).
+    """
     import resource
+    where = ["--scheduler", scheduler] if scheduler else ["--workers", str(workers)]
     command = [sys.executable, "-m", "lamina.cli", "map", str(mapfile), "--model", str(MODEL),
-               "--workers", str(workers), "--quiet", "-o", str(outdir)]
+               *where, "--quiet", "-o", str(outdir)]
     before = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
     done = subprocess.run(command, capture_output=True, text=True)
@@ -151,7 +160,10 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sites", type=int, nargs="*", default=[49, 400])
     parser.add_argument("--workers", type=int, nargs="+", default=[1, 2])
-    parser.add_argument("--repeat", type=int, default=1, help="runs per case; the fastest counts")
+    parser.add_argument("--repeat", type=int, default=3, help="runs per case (alternating); the fastest counts")
+    parser.add_argument("--warm-cluster", action="store_true",
+                        help="start a 1- and a 2-worker cluster first and run the command with --scheduler: "
+                             "the whole command minus the start-up of the workers (a long-lived cluster)")
     parser.add_argument("--plumbing", type=int, metavar="SITES", default=0,
                         help="also time the dask orchestration alone on a map of SITES sites (no fitting)")
     parser.add_argument("--stage", type=int, metavar="SITES", default=0,
@@ -164,23 +176,36 @@ def main(argv=None) -> int:
     if args.plumbing:
         for workers in args.workers:
             plumbing(args.plumbing, workers)
-    with tempfile.TemporaryDirectory() as tmp:
+    with tempfile.TemporaryDirectory() as tmp, contextlib.ExitStack() as clusters:
         folder = Path(tmp)
+        schedulers = {}
+        if args.warm_cluster:
+            from lamina.qa import maps
+            for workers in args.workers:  # started once, used by every run: start-up of the workers excluded
+                schedulers[workers] = clusters.enter_context(maps.MapCluster(workers)).cluster.scheduler_address
         for n_sites in args.sites:
             mapfile = write_map(folder / f"map{n_sites}.csv", n_sites)
-            best = {}
+            times = {workers: [] for workers in args.workers}
+            cpu = {workers: [] for workers in args.workers}
+            for k in range(args.repeat):  # alternate the worker counts: both see the same load
+                for workers in args.workers:
+                    wall, used = run(mapfile, workers, folder / f"out{n_sites}_{workers}_{k}", schedulers.get(workers))
+                    times[workers].append(wall)
+                    cpu[workers].append(used)
+            best = {workers: min(t) for workers, t in times.items()}
+            mode = " through --scheduler (warm workers)" if args.warm_cluster else ""
             for workers in args.workers:
-                runs = [run(mapfile, workers, folder / f"out{n_sites}_{workers}_{k}") for k in range(args.repeat)]
-                times = [wall for wall, _ in runs]
-                best[workers] = min(times)
-                cpu = min(c for _, c in runs)
-                print(f"{n_sites:4d} sites, {workers} worker(s): {best[workers]:6.2f} s  "
-                      f"{n_sites / best[workers]:6.1f} sites/s  CPU {cpu:6.2f} s  "
-                      f"(runs: {', '.join(f'{t:.2f}' for t in times)}; load {os.getloadavg()[0]:.1f})", flush=True)
+                print(f"{n_sites:4d} sites, {workers} worker(s){mode}: {best[workers]:6.2f} s  "
+                      f"{n_sites / best[workers]:6.1f} sites/s  CPU {min(cpu[workers]):6.2f} s  "
+                      f"(runs: {', '.join(f'{t:.2f}' for t in times[workers])}; load {os.getloadavg()[0]:.1f})",
+                      flush=True)
             if 1 in best and len(best) > 1:
                 for workers, seconds in best.items():
                     if workers != 1:
-                        print(f"{n_sites:4d} sites: speed-up {workers} workers over 1: {best[1] / seconds:.2f}x")
+                        pairs = [one / other for one, other in zip(times[1], times[workers])]
+                        print(f"{n_sites:4d} sites: speed-up {workers} workers over 1: {best[1] / seconds:.2f}x "
+                              f"(fastest runs); median of {len(pairs)} pairs {statistics.median(pairs):.2f}x "
+                              f"(pairs: {', '.join(f'{r:.2f}' for r in pairs)})")
                 if 2 in best:
                     _split(n_sites, best[1], best[2])
     print(f"load average after: {os.getloadavg()[0]:.2f}")
